@@ -1,0 +1,59 @@
+// One Vite config for the console build, its dev server, and the vitest projects.
+import { defineConfig } from 'vite';
+import vue from '@vitejs/plugin-vue';
+import tailwindcss from '@tailwindcss/vite';
+
+const apiTarget = `http://${process.env.HOST ?? '127.0.0.1'}:${process.env.PORT ?? '4780'}`;
+
+export default defineConfig({
+  plugins: [vue(), tailwindcss()],
+  build: { outDir: 'dist/console', emptyOutDir: true },
+  server: {
+    port: 5173,
+    proxy: {
+      '/v1': apiTarget,
+      '/docs': apiTarget,
+      '/.well-known': apiTarget,
+    },
+  },
+  test: {
+    projects: [
+      {
+        test: {
+          name: 'unit',
+          include: ['tests/unit/**/*.test.ts', 'tests/engine/**/*.test.ts'],
+          environment: 'node',
+          testTimeout: 120_000,
+        },
+      },
+      {
+        test: {
+          name: 'integration',
+          include: ['tests/integration/**/*.test.ts'],
+          environment: 'node',
+          testTimeout: 120_000,
+          hookTimeout: 120_000,
+          fileParallelism: false,
+        },
+      },
+      {
+        plugins: [vue()],
+        test: {
+          name: 'console',
+          include: ['tests/console/**/*.test.ts'],
+          environment: 'happy-dom',
+        },
+      },
+      {
+        test: {
+          name: 'browser',
+          include: ['tests/browser/**/*.test.ts'],
+          environment: 'node',
+          testTimeout: 180_000,
+          hookTimeout: 180_000,
+          fileParallelism: false,
+        },
+      },
+    ],
+  },
+});
