@@ -1,5 +1,5 @@
 // One Vite config for the console build, its dev server, and the vitest projects.
-import { defineConfig } from 'vite';
+import { defineConfig } from 'vitest/config';
 import vue from '@vitejs/plugin-vue';
 import tailwindcss from '@tailwindcss/vite';
 
@@ -7,6 +7,7 @@ const apiTarget = `http://${process.env.HOST ?? '127.0.0.1'}:${process.env.PORT 
 
 export default defineConfig({
   plugins: [vue(), tailwindcss()],
+  publicDir: 'console/public',
   build: { outDir: 'dist/console', emptyOutDir: true },
   server: {
     port: 5173,

@@ -1,0 +1,123 @@
+// The Express application: one place that wires middleware, the OpenAPI-declared routes, the docs,
+// the console and the problem-details error handler. Nothing here decides a business rule.
+import { randomUUID } from 'node:crypto';
+import { existsSync } from 'node:fs';
+import { dirname, join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import express, { type Express } from 'express';
+import helmet from 'helmet';
+import { pinoHttp } from 'pino-http';
+import swaggerUi from 'swagger-ui-express';
+import * as OpenApiValidator from 'express-openapi-validator';
+import { loadApiDocument, operationsOf } from '../openapi/load';
+import { authenticate, authorize } from './http/access';
+import type { AppContext } from './http/context';
+import { notFoundHandler, PayloadTooLargeProblem, problemHandler } from './http/problem';
+import { allHandlers } from './routes';
+
+const root = join(dirname(fileURLToPath(import.meta.url)), '..');
+export const CONSOLE_DIST = join(root, 'dist', 'console');
+const API_PATH = /^\/(v1|healthz|readyz|\.well-known)(\/|$)/;
+const REQUEST_ID = /^[A-Za-z0-9._-]{1,100}$/;
+
+/** OpenAPI "/v1/verdicts/{id}" → Express "/v1/verdicts/:id". */
+function expressPath(path: string): string {
+  return path.replace(/\{([^}]+)\}/g, ':$1');
+}
+
+export function createApp(ctx: AppContext): Express {
+  const doc = loadApiDocument();
+  const operations = operationsOf(doc);
+  const handlers = allHandlers(ctx);
+  const missing = operations.filter((op) => !handlers[op.operationId]).map((op) => op.operationId);
+  if (missing.length > 0) throw new Error(`No handler for operation(s): ${missing.join(', ')}`);
+
+  const app = express();
+  app.disable('x-powered-by');
+  app.set('trust proxy', 'loopback');
+  app.set('query parser', 'extended');
+
+  app.use(
+    pinoHttp({
+      logger: ctx.logger,
+      genReqId: (req, res) => {
+        const incoming = req.headers['x-request-id'];
+        const id = typeof incoming === 'string' && REQUEST_ID.test(incoming) ? incoming : randomUUID();
+        res.setHeader('X-Request-Id', id);
+        return id;
+      },
+      // Only what is safe to keep: no headers (Authorization, Cookie), no bodies, no query strings.
+      serializers: {
+        req: (req) => ({ id: req.id, method: req.method, path: String(req.url).split('?')[0], remoteAddress: req.remoteAddress }),
+        res: (res) => ({ statusCode: res.statusCode }),
+      },
+      customLogLevel: (_req, res, err) => (err || res.statusCode >= 500 ? 'error' : res.statusCode >= 400 ? 'info' : 'debug'),
+      autoLogging: { ignore: (req) => req.url === '/healthz' },
+    }),
+  );
+  app.use(
+    helmet({
+      contentSecurityPolicy: {
+        directives: {
+          'script-src': ["'self'"],
+          'img-src': ["'self'", 'data:'],
+          'connect-src': ["'self'"],
+        },
+      },
+      crossOriginEmbedderPolicy: false,
+    }),
+  );
+
+  // The document itself and the interactive docs (Swagger UI's assets are served from node_modules).
+  app.get('/v1/openapi.json', (_req, res) => {
+    res.json(doc);
+  });
+  app.use(
+    '/docs',
+    swaggerUi.serve,
+    swaggerUi.setup(doc, {
+      customSiteTitle: 'Lotproof API',
+      swaggerOptions: { persistAuthorization: true, tryItOutEnabled: true, displayRequestDuration: true },
+    }),
+  );
+
+  const limit = ctx.config.bodyLimitBytes;
+  app.use(express.json({ limit, type: ['application/json', 'application/*+json'] }));
+  app.use(express.text({ limit, type: ['text/csv', 'text/plain'] }));
+  app.use((req, _res, next) => {
+    const declared = Number(req.headers['content-length'] ?? 0);
+    if (declared > limit) return next(new PayloadTooLargeProblem(`The body is ${declared} bytes; the limit is ${limit} bytes.`));
+    next();
+  });
+
+  app.use((req, res, next) => (API_PATH.test(req.path) ? authenticate(req, res, next) : next()));
+  for (const op of operations) {
+    app[op.method](expressPath(op.path), authorize(op.access, op.operationId));
+  }
+  app.use(
+    OpenApiValidator.middleware({
+      apiSpec: doc as any,
+      validateRequests: { allowUnknownQueryParameters: false, coerceTypes: true },
+      validateResponses: ctx.config.validateResponses,
+      validateSecurity: false,
+      validateFormats: true,
+      ignorePaths: (path: string) => !API_PATH.test(path),
+      ignoreUndocumented: false,
+    }),
+  );
+  for (const op of operations) {
+    app[op.method](expressPath(op.path), handlers[op.operationId]!);
+  }
+
+  // The console: built by Vite into dist/console, served from the same origin.
+  if (existsSync(join(CONSOLE_DIST, 'index.html'))) {
+    app.use(express.static(CONSOLE_DIST, { index: false, maxAge: '1h' }));
+    app.get(/^(?!\/(v1|docs|healthz|readyz|\.well-known)(\/|$)).*/, (_req, res) => {
+      res.sendFile(join(CONSOLE_DIST, 'index.html'));
+    });
+  }
+
+  app.use(notFoundHandler);
+  app.use(problemHandler);
+  return app;
+}

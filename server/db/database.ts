@@ -1,0 +1,37 @@
+// The Sequelize instance and its connection pool. Persistence only: no business rules here.
+import { Sequelize } from 'sequelize';
+import type { Logger } from 'pino';
+import { initModels } from '../models';
+
+export interface Database {
+  sequelize: Sequelize;
+  /** Cheap reachability check for /readyz; rejects when the database cannot be reached. */
+  ping: (timeoutMs?: number) => Promise<void>;
+  close: () => Promise<void>;
+}
+
+export function openDatabase(url: string, logger?: Logger, poolMax = 20): Database {
+  const sequelize = new Sequelize(url, {
+    dialect: 'postgres',
+    logging: logger ? (sql: string) => logger.trace({ sql: sql.slice(0, 500) }, 'sql') : false,
+    pool: { max: poolMax, min: 0, acquire: 10_000, idle: 10_000 },
+    dialectOptions: { connectionTimeoutMillis: 3_000, application_name: 'lotproof' },
+    define: { underscored: true, timestamps: false },
+  });
+  initModels(sequelize);
+  return {
+    sequelize,
+    ping: async (timeoutMs = 2_000) => {
+      let timer: NodeJS.Timeout | undefined;
+      const timeout = new Promise<never>((_, rej) => {
+        timer = setTimeout(() => rej(new Error('database ping timed out')), timeoutMs);
+      });
+      try {
+        await Promise.race([sequelize.query('SELECT 1'), timeout]);
+      } finally {
+        clearTimeout(timer);
+      }
+    },
+    close: () => sequelize.close(),
+  };
+}

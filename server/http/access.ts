@@ -1,0 +1,94 @@
+// Authentication (who is calling) and authorisation (may they call this operation).
+// The rule for each operation is declared once, as `x-lotproof-access` in the OpenAPI document.
+import passport from 'passport';
+import { Strategy as BearerStrategy } from 'passport-http-bearer';
+import type { RequestHandler } from 'express';
+import type { Access } from '../../openapi/load';
+import { verifyApiKey } from '../services/api-keys';
+import type { Principal, Role, Scope } from '../services/principal';
+import { ForbiddenProblem, UnauthorizedProblem } from './problem';
+
+declare module 'express-serve-static-core' {
+  interface Request {
+    principal?: Principal;
+  }
+}
+
+const REASONS = {
+  malformed: 'The bearer credential is not a Lotproof API key.',
+  unknown: 'The API key is not valid.',
+  revoked: 'The API key has been revoked.',
+  expired: 'The API key has expired.',
+} as const;
+
+const failures = new WeakMap<object, keyof typeof REASONS>();
+
+passport.use(
+  new BearerStrategy({ passReqToCallback: true, realm: 'lotproof' }, (req: object, token: string, done: (err: unknown, user?: Principal | false) => void) => {
+    verifyApiKey(token).then(
+      (check) => {
+        if (check.ok) return done(null, check.principal);
+        failures.set(req, check.reason);
+        done(null, false);
+      },
+      (err) => done(err),
+    );
+  }),
+);
+
+/** Other ways of signing in (console sessions) register a resolver here; the first that answers wins. */
+export type PrincipalResolver = (req: Parameters<RequestHandler>[0]) => Promise<Principal | null>;
+const resolvers: PrincipalResolver[] = [];
+export function addPrincipalResolver(resolver: PrincipalResolver): void {
+  resolvers.push(resolver);
+}
+
+/** Sets req.principal from a bearer API key or a registered resolver. A bad bearer credential is a 401 at once. */
+export const authenticate: RequestHandler = (req, res, next) => {
+  if (/^bearer\s/i.test(req.headers.authorization ?? '')) {
+    passport.authenticate('bearer', { session: false }, (err: unknown, principal: Principal | false) => {
+      if (err) return next(err);
+      if (!principal) {
+        res.setHeader('WWW-Authenticate', 'Bearer realm="lotproof", error="invalid_token"');
+        return next(new UnauthorizedProblem(REASONS[failures.get(req) ?? 'unknown']));
+      }
+      req.principal = principal;
+      next();
+    })(req, res, next);
+    return;
+  }
+  (async () => {
+    for (const resolve of resolvers) {
+      const p = await resolve(req);
+      if (p) {
+        req.principal = p;
+        break;
+      }
+    }
+  })().then(() => next(), next);
+};
+
+/** True when the principal passes the declared rule. */
+export function allows(access: Access, p: Principal): boolean {
+  if (access === 'public') return true;
+  if (p.kind === 'api-key') return (access.scopes ?? []).some((s) => p.scopes.includes(s as Scope));
+  return p.role !== undefined && (access.roles ?? []).includes(p.role as Role);
+}
+
+export function authorize(access: Access, operationId: string): RequestHandler {
+  return (req, res, next) => {
+    if (access === 'public') return next();
+    const p = req.principal;
+    if (!p) {
+      res.setHeader('WWW-Authenticate', 'Bearer realm="lotproof"');
+      return next(new UnauthorizedProblem('This operation needs an API key (Authorization: Bearer …) or a console session.'));
+    }
+    if (!allows(access, p)) {
+      const need = p.kind === 'api-key'
+        ? `an API key with one of the scopes ${(access.scopes ?? []).join(', ') || '(none: console only)'}`
+        : `a console role among ${(access.roles ?? []).join(', ') || '(none: API keys only)'}`;
+      return next(new ForbiddenProblem(`${operationId} needs ${need}.`));
+    }
+    next();
+  };
+}

@@ -1,0 +1,46 @@
+// Starting and stopping one Lotproof API process: database, migrations, HTTP listener, graceful stop.
+import type { Server } from 'node:http';
+import type { Logger } from 'pino';
+import { createApp } from './app';
+import type { Config } from './config';
+import { openDatabase, type Database } from './db/database';
+import { migrate } from './db/migrate';
+import type { AppContext } from './http/context';
+
+export interface RunningServer {
+  url: string;
+  ctx: AppContext;
+  server: Server;
+  /** Stops accepting connections, lets in-flight requests finish, then closes the pool. */
+  stop: () => Promise<void>;
+}
+
+export async function startServer(config: Config & { databaseUrl: string }, logger: Logger): Promise<RunningServer> {
+  const db: Database = openDatabase(config.databaseUrl, logger);
+  await migrate(db.sequelize, (m) => logger.debug(m));
+  const ctx: AppContext = { config, db, logger };
+  const app = createApp(ctx);
+  const server = await new Promise<Server>((resolve, reject) => {
+    const s = app.listen(config.port, config.host, () => resolve(s));
+    s.once('error', reject);
+  });
+  server.keepAliveTimeout = 5_000;
+  const addr = server.address();
+  const port = typeof addr === 'object' && addr ? addr.port : config.port;
+  let stopping: Promise<void> | null = null;
+  return {
+    url: `http://${config.host}:${port}`,
+    ctx,
+    server,
+    stop: () =>
+      (stopping ??= (async () => {
+        await new Promise<void>((resolve) => {
+          server.close(() => resolve());
+          server.closeIdleConnections();
+          // Requests still running after 10 s are cut off rather than holding the shutdown forever.
+          setTimeout(() => server.closeAllConnections(), 10_000).unref();
+        });
+        await db.close();
+      })()),
+  };
+}

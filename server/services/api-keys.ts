@@ -1,0 +1,89 @@
+// API keys: issued with scopes, shown once, stored as a SHA-256 hash with a short visible prefix.
+// A key is high-entropy random, so a fast hash is the right tool here (a slow password hash is for
+// low-entropy secrets such as passwords).
+import { createHash, randomBytes, timingSafeEqual } from 'node:crypto';
+import { Op } from 'sequelize';
+import { ApiKey } from '../models';
+import type { Principal, Scope } from './principal';
+
+const KEY_PATTERN = /^lpk_([A-Za-z0-9]{12})_([A-Za-z0-9_-]{43})$/;
+
+export interface IssuedKey {
+  key: ApiKey;
+  /** The full secret; returned to the caller once and never stored. */
+  secret: string;
+}
+
+function hashSecret(secret: string): Buffer {
+  return createHash('sha256').update(secret, 'utf8').digest();
+}
+
+function randomPrefix(): string {
+  const alphabet = 'ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789';
+  const bytes = randomBytes(12);
+  return Array.from(bytes, (b) => alphabet[b % alphabet.length]).join('');
+}
+
+export async function issueApiKey(input: {
+  organisationId: string;
+  name: string;
+  scopes: Scope[];
+  expiresAt?: Date | null;
+  createdBy?: string | null;
+}): Promise<IssuedKey> {
+  const prefix = randomPrefix();
+  const secret = `lpk_${prefix}_${randomBytes(32).toString('base64url')}`;
+  const key = await ApiKey.create({
+    organisationId: input.organisationId,
+    name: input.name,
+    prefix,
+    secretHash: hashSecret(secret),
+    scopes: [...new Set(input.scopes)],
+    expiresAt: input.expiresAt ?? null,
+    createdBy: input.createdBy ?? null,
+  });
+  return { key, secret };
+}
+
+export type KeyCheck =
+  | { ok: true; principal: Principal }
+  | { ok: false; reason: 'malformed' | 'unknown' | 'revoked' | 'expired' };
+
+/** Checks a presented bearer secret against the stored hash; every request reads the row, so a revocation takes effect at once. */
+export async function verifyApiKey(secret: string, now = new Date()): Promise<KeyCheck> {
+  const m = KEY_PATTERN.exec(secret);
+  if (!m) return { ok: false, reason: 'malformed' };
+  const key = await ApiKey.findOne({ where: { prefix: m[1] } });
+  if (!key) return { ok: false, reason: 'unknown' };
+  const presented = hashSecret(secret);
+  if (key.secretHash.length !== presented.length || !timingSafeEqual(key.secretHash, presented)) {
+    return { ok: false, reason: 'unknown' };
+  }
+  if (key.revokedAt) return { ok: false, reason: 'revoked' };
+  if (key.expiresAt && key.expiresAt.getTime() <= now.getTime()) return { ok: false, reason: 'expired' };
+  // Record use at most once a minute per key, so a busy key does not write on every request.
+  void ApiKey.update(
+    { lastUsedAt: now },
+    {
+      where: {
+        id: key.id,
+        [Op.or]: [{ lastUsedAt: null }, { lastUsedAt: { [Op.lt]: new Date(now.getTime() - 60_000) } }],
+      },
+    },
+  ).catch(() => {});
+  return {
+    ok: true,
+    principal: { organisationId: key.organisationId, kind: 'api-key', scopes: key.scopes as Scope[], keyId: key.id },
+  };
+}
+
+export async function revokeApiKey(organisationId: string, keyId: string): Promise<ApiKey | null> {
+  const key = await ApiKey.findOne({ where: { id: keyId, organisationId } });
+  if (!key) return null;
+  if (!key.revokedAt) await key.update({ revokedAt: new Date() });
+  return key;
+}
+
+export async function listApiKeys(organisationId: string): Promise<ApiKey[]> {
+  return ApiKey.findAll({ where: { organisationId }, order: [['createdAt', 'DESC']] });
+}

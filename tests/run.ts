@@ -1,0 +1,55 @@
+// `npm test`: the whole suite on a throwaway PostgreSQL cluster.
+// Makes sure Debian's postgresql, r-base-core and chromium are present, starts a cluster in a temp
+// folder on a free port, migrates it, builds the console, runs every vitest project, and removes the
+// cluster afterwards — also when tests fail or the run is interrupted.
+import { spawn } from 'node:child_process';
+import { mkdtempSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { ensureDebianPackages } from '../server/platform/debian-packages';
+import { destroyCluster, freePort, startCluster, type RunningCluster } from '../server/platform/embedded-postgres';
+import { openDatabase } from '../server/db/database';
+import { migrate } from '../server/db/migrate';
+
+let cluster: RunningCluster | null = null;
+const cleanup = () => {
+  if (cluster) {
+    destroyCluster(cluster);
+    cluster = null;
+  }
+};
+
+async function main(): Promise<number> {
+  ensureDebianPackages(['postgresql', 'r-base-core', 'chromium']);
+  const dir = mkdtempSync(join(tmpdir(), 'lotproof-test-pg-'));
+  cluster = startCluster({ dir, port: await freePort(), database: 'lotproof_test' });
+  const db = openDatabase(cluster.url);
+  await migrate(db.sequelize);
+  await db.close();
+
+  const { build } = await import('vite');
+  await build({ logLevel: 'error' });
+
+  const args = ['vitest', 'run', ...process.argv.slice(2)];
+  const child = spawn('npx', args, {
+    stdio: 'inherit',
+    env: { ...process.env, DATABASE_URL: cluster.url, LOTPROOF_VALIDATE_RESPONSES: 'true', NODE_ENV: 'test', LOG_LEVEL: 'silent' },
+  });
+  for (const sig of ['SIGINT', 'SIGTERM'] as const) {
+    process.on(sig, () => {
+      child.kill(sig);
+    });
+  }
+  return new Promise((resolve) => child.on('exit', (code, signal) => resolve(code ?? (signal ? 1 : 0))));
+}
+
+main()
+  .then((code) => {
+    cleanup();
+    process.exit(code);
+  })
+  .catch((err) => {
+    console.error(err);
+    cleanup();
+    process.exit(1);
+  });
