@@ -1,0 +1,38 @@
+/**
+ * Grubbs' test for one outlier (Grubbs 1969, "Procedures for detecting outlying observations in
+ * samples", Technometrics 11(1):1–21), two-sided: G = max |xᵢ − x̄| / s. Under normality,
+ * t = √(n(n − 2)G² / ((n − 1)² − nG²)) follows t(n − 2) for a given point, and the p-value is
+ * the Bonferroni bound min(1, 2n·P(T > t)) (exact whenever it is below about 0.5 in practice).
+ * The engine only flags the pack; it never removes it from the data.
+ */
+import type { Maybe } from '../result';
+import { none, some } from '../result';
+import { studentTUpperTail } from '../distributions/studentT';
+
+export interface GrubbsResult {
+  statistic: number;
+  pValue: number;
+  /** 0-based index of the most extreme measurement. */
+  index: number;
+  value: number;
+}
+
+export function grubbs(x: ArrayLike<number>, mean: number, standardDeviation: number): Maybe<GrubbsResult> {
+  const n = x.length;
+  if (n < 3) return none('Grubbs’ test needs at least 3 measurements');
+  if (!(standardDeviation > 0)) return none('all measurements are equal, so there is no outlier to test');
+  let index = 0;
+  let maxDev = -1;
+  for (let i = 0; i < n; i++) {
+    const d = Math.abs(x[i]! - mean);
+    if (d > maxDev) {
+      maxDev = d;
+      index = i;
+    }
+  }
+  const g = maxDev / standardDeviation;
+  const denom = (n - 1) * (n - 1) - n * g * g;
+  // denom ≤ 0 only at G's attainable maximum (n − 1)/√n, where the t statistic is unbounded.
+  const pValue = denom > 0 ? Math.min(1, 2 * n * studentTUpperTail(Math.sqrt((n * (n - 2) * g * g) / denom), n - 2)) : 0;
+  return some({ statistic: g, pValue, index, value: x[index]! });
+}

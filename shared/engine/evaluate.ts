@@ -1,0 +1,130 @@
+/**
+ * evaluateLot: product spec and lot measurements in, verdict out. Pure and deterministic: the
+ * same input always gives the same verdict (no clocks, no randomness), so a stored verdict can be
+ * recomputed from its input and the engine version.
+ */
+import type { Criterion, Decision, EngineResult, LotInput, MeanTestResult, Verdict } from './types';
+import { ENGINE_VERSION } from './version';
+import { engineError } from './errors';
+import { toNet, validateInput } from './net';
+import { rulebookFor } from './rulebooks/registry';
+import { describe } from './stats/describe';
+import { tTestFromSummary, zTestFromSummary } from './inference/meanTest';
+import { assumptionChecks } from './assumptions/checks';
+import { countBelow } from './rulebooks/criteria';
+import { formatNumber, formatPValue } from './format';
+
+export const CAUTION =
+  'This verdict is a statistical aid to a release decision, not a legal certificate: the packer’s responsible person decides release, and local weights-and-measures law and the competent authority prevail where they differ from this rulebook.';
+
+function customMeanCriterion(t: MeanTestResult): Criterion {
+  const passed = t.conclusion === 'fail to reject H0';
+  return {
+    id: 'mean',
+    observed: t.pValue,
+    limit: t.alpha,
+    passed,
+    sentence: `${t.method} test p = ${formatPValue(t.pValue)} ${passed ? '>' : '≤'} α = ${formatNumber(t.alpha)}: ${t.conclusion} (${t.alternative} alternative, μ₀ = ${formatNumber(t.hypothesisedMean)})`,
+  };
+}
+
+function decide(criteria: Criterion[], insufficient: boolean, additional: number | null): Decision {
+  if (insufficient) return 'insufficient-data';
+  if (criteria.some((c) => c.passed === false)) return 'nonconforming';
+  if (additional !== null || criteria.some((c) => c.passed === null)) return 'second-sample-required';
+  return 'conforming';
+}
+
+export function evaluateLot(input: LotInput): EngineResult {
+  const bad = validateInput(input);
+  if (bad) return { ok: false, error: bad };
+  const rulebook = rulebookFor(input.product.rulebook.id);
+  if (rulebook === null) {
+    return {
+      ok: false,
+      error: engineError('unknown-rulebook', `unknown rulebook ${JSON.stringify(input.product.rulebook.id)}`, '/product/rulebook/id'),
+    };
+  }
+  const ruleErr = rulebook.validate(input);
+  if (ruleErr) return { ok: false, error: ruleErr };
+  const converted = toNet(input);
+  if (!converted.ok) return converted;
+  const { net } = converted.data;
+  const unit = input.product.unit;
+  const qn = input.product.nominalQuantity;
+  const descriptive = describe(net, unit);
+  const sd = descriptive.standardDeviation ?? 0;
+
+  const judged = rulebook.judge({
+    input,
+    net,
+    previousCount: converted.data.previousCount,
+    currentCount: converted.data.currentCount,
+    unit,
+    qn,
+    mean: descriptive.mean,
+    standardDeviation: sd,
+  });
+  if ('error' in judged) return { ok: false, error: judged.error };
+
+  const { knownStandardDeviation, ...testOpts } = judged.meanTest;
+  const summary = { n: net.length, mean: descriptive.mean, standardDeviation: sd };
+  const test =
+    knownStandardDeviation !== undefined
+      ? zTestFromSummary(summary, knownStandardDeviation, testOpts)
+      : tTestFromSummary(summary, testOpts);
+  if (test.value === null) {
+    return { ok: false, error: engineError('test-not-computable', test.reason, '/lot/measurements') };
+  }
+
+  const criteria = judged.criteria.slice();
+  if (rulebook.info.id === 'custom' && !judged.insufficient) criteria.splice(1, 0, customMeanCriterion(test.value));
+
+  const warnings = judged.warnings.slice();
+  const tne = judged.tne;
+  const tareSd = converted.data.tareSampleStandardDeviation;
+  // Tare-sample spread against TNE: above 0.25 × TNE, per-pack tares are advisable (threshold from memory; verify).
+  if (tne !== null && tareSd !== null && tareSd > 0.25 * tne.value) {
+    warnings.push(
+      `the tare sample's standard deviation ${formatNumber(tareSd)} ${unit} exceeds 0.25 × TNE (${formatNumber(0.25 * tne.value)} ${unit}); weigh the tare of every pack instead (threshold from memory; verify)`,
+    );
+  }
+
+  const t1Limit = tne === null ? null : qn - tne.value;
+  const t2Limit = tne === null ? null : qn - 2 * tne.value;
+  const decision = decide(criteria, judged.insufficient, judged.additionalPacks);
+
+  const verdict: Verdict = {
+    decision,
+    ...(decision === 'second-sample-required' && judged.additionalPacks !== null
+      ? { secondSample: { additionalPacks: judged.additionalPacks } }
+      : {}),
+    criteria,
+    statistics: { descriptive, meanTest: test.value },
+    assumptions: assumptionChecks(net, descriptive, testOpts),
+    net: {
+      unit,
+      nominalQuantity: qn,
+      tolerableNegativeError: tne === null ? null : tne.value,
+      tolerableNegativeErrorBase: tne === null ? null : tne.baseValue,
+      baseUnit: unit === 'mL' || unit === 'cL' || unit === 'L' || unit === 'fl oz' ? 'mL' : 'g',
+      t1Limit,
+      t2Limit,
+      count: net.length,
+      tareApplied: converted.data.tareApplied,
+      tareMean: converted.data.tareMean,
+      belowT1Indices: t1Limit === null ? [] : countBelow(net, t1Limit).indices,
+      belowT2Indices: t2Limit === null ? [] : countBelow(net, t2Limit).indices,
+    },
+    warnings,
+    engineVersion: ENGINE_VERSION,
+    rulebook: {
+      id: rulebook.info.id,
+      version: rulebook.info.version,
+      title: rulebook.info.title,
+      source: rulebook.info.source,
+    },
+    caution: CAUTION,
+  };
+  return { ok: true, verdict };
+}

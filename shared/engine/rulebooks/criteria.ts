@@ -1,0 +1,114 @@
+/** Criterion builders shared by the rulebooks, with the sentences a quality engineer reads. */
+import type { Criterion, Unit } from '../types';
+import { formatNumber, formatQuantity } from '../format';
+import { studentTQuantile } from '../distributions/studentT';
+
+/**
+ * λ = t(0.995; n − 1)/√n, the factor of the mean check x̄ ≥ Qn − λ·s (Directive 76/211/EEC
+ * Annex II, 2.3; the one-sided t test of H0: μ = Qn against H1: μ < Qn at α = 0.005).
+ * Annex II 2.3.3 prints 0.503 (n = 30), 0.379 (n = 50) and 0.640 (n = 20).
+ */
+export function meanCheckFactor(n: number): number {
+  return studentTQuantile(0.995, n - 1) / Math.sqrt(n);
+}
+
+/** Counts net values strictly below a limit, keeping the first `keep` indices. */
+export function countBelow(x: ArrayLike<number>, limit: number, keep = 100): { count: number; indices: number[] } {
+  let count = 0;
+  const indices: number[] = [];
+  for (let i = 0; i < x.length; i++) {
+    if (x[i]! < limit) {
+      count++;
+      if (indices.length < keep) indices.push(i);
+    }
+  }
+  return { count, indices };
+}
+
+/** Counts net values strictly above a limit. */
+export function countAbove(x: ArrayLike<number>, limit: number): number {
+  let count = 0;
+  for (let i = 0; i < x.length; i++) if (x[i]! > limit) count++;
+  return count;
+}
+
+/**
+ * The mean check. With `factor` null (every pack of the lot measured) the lot mean is known and
+ * the check is the plain x̄ ≥ Qn (Directive 76/211/EEC Annex I, 1.1).
+ */
+export function meanCriterion(mean: number, sd: number, n: number, qn: number, factor: number | null, unit: Unit): Criterion {
+  const q = (v: number) => formatQuantity(v, unit);
+  if (factor === null) {
+    const passed = mean >= qn;
+    return {
+      id: 'mean',
+      observed: mean,
+      limit: qn,
+      passed,
+      sentence: `mean ${q(mean)} of all ${n} packs in the lot is ${passed ? 'at or above' : 'below'} the nominal quantity ${q(qn)}`,
+    };
+  }
+  const limit = qn - factor * sd;
+  const passed = mean >= limit;
+  return {
+    id: 'mean',
+    observed: mean,
+    limit,
+    passed,
+    sentence:
+      `mean ${q(mean)} is ${passed ? 'at or above' : 'below'} the lower limit ${q(limit)} = ` +
+      `${q(qn)} \u2212 ${formatNumber(factor, 3)} × ${q(sd)} (n = ${n})`,
+  };
+}
+
+function packs(k: number): string {
+  return k === 1 ? '1 pack' : `${k} packs`;
+}
+
+/** T1 count against an acceptance number (and a rejection number for a double plan's first sample). */
+export function t1Criterion(
+  count: number,
+  t1Limit: number,
+  tne: number,
+  unit: Unit,
+  accept: number,
+  reject: number,
+  planText: string,
+): Criterion {
+  const q = (v: number) => formatQuantity(v, unit);
+  const passed: boolean | null = count <= accept ? true : count >= reject ? false : null;
+  const head = `${packs(count)} below T1 = ${q(t1Limit)} (Qn \u2212 TNE ${q(tne)})`;
+  let tail: string;
+  if (passed === true) tail = `within the ${accept} allowed ${planText}`;
+  else if (passed === false) tail = `more than the ${accept} allowed ${planText}`;
+  else tail = `between the acceptance number ${accept} and the rejection number ${reject} ${planText}: a second sample decides`;
+  return { id: 't1', observed: count, limit: accept, passed, sentence: `${head}: ${tail}` };
+}
+
+/** No pack may fall below T2 = Qn − 2·TNE (Directive 76/211/EEC Annex I, 1.3). */
+export function t2Criterion(count: number, t2Limit: number, unit: Unit): Criterion {
+  const q = (v: number) => formatQuantity(v, unit);
+  const passed = count === 0;
+  return {
+    id: 't2',
+    observed: count,
+    limit: 0,
+    passed,
+    sentence: passed
+      ? `no pack below T2 = ${q(t2Limit)} (Qn \u2212 2 × TNE)`
+      : `${packs(count)} below T2 = ${q(t2Limit)} (Qn \u2212 2 × TNE); none is allowed`,
+  };
+}
+
+export function sampleSizeCriterion(n: number, required: number, context: string): Criterion {
+  const passed = n >= required;
+  return {
+    id: 'sample-size',
+    observed: n,
+    limit: required,
+    passed,
+    sentence: passed
+      ? `${packs(n)} measured; the plan needs ${required} ${context}`
+      : `only ${packs(n)} measured; the plan needs ${required} ${context}, so no decision is made`,
+  };
+}

@@ -1,0 +1,34 @@
+import type { Criterion, EngineError, LotInput, RulebookInfo, Unit } from '../types';
+import type { MeanTestOptions } from '../inference/meanTest';
+
+/** What a rulebook sees: the validated input and the net quantities in the declared unit. */
+export interface JudgeContext {
+  input: LotInput;
+  /** Net quantities judged (previous sample first, then the current one). */
+  net: Float64Array;
+  previousCount: number;
+  currentCount: number;
+  unit: Unit;
+  qn: number;
+  mean: number;
+  standardDeviation: number;
+}
+
+export interface Judgement {
+  criteria: Criterion[];
+  /** True when the sample is too small for the plan: the verdict is `insufficient-data`. */
+  insufficient: boolean;
+  /** Set when a double sampling plan needs a second sample. */
+  additionalPacks: number | null;
+  meanTest: MeanTestOptions & { knownStandardDeviation?: number };
+  /** TNE in the declared unit and in g/mL, or null when the rulebook has none. */
+  tne: { value: number; baseValue: number } | null;
+  warnings: string[];
+}
+
+export interface Rulebook {
+  info: RulebookInfo;
+  /** Rulebook-specific input checks (scope, parameters); null when fine. */
+  validate(input: LotInput): EngineError | null;
+  judge(ctx: JudgeContext): Judgement | { error: EngineError };
+}
