@@ -86,6 +86,9 @@ export function startCluster(opts: ClusterOptions): RunningCluster {
     chownSync(sock, uid, gid);
   }
   chmodSync(dir, 0o700);
+  if (isRoot() && spawnSync('runuser', ['-u', 'postgres', '--', 'test', '-w', dir]).status !== 0) {
+    throw new Error(`The postgres user cannot reach ${dir}: every folder above it must be enterable by others (chmod o+x).`);
+  }
 
   if (!existsSync(join(data, 'PG_VERSION'))) {
     log(`Creating a PostgreSQL cluster in ${data}`);
