@@ -1,0 +1,82 @@
+import { describe, expect, it } from 'vitest';
+import { evaluateLot, type LotInput } from '../../shared/engine';
+import { lotInput, ramp, verdictOf } from './helpers';
+
+function errorOf(input: LotInput) {
+  const r = evaluateLot(input);
+  if (r.ok) throw new Error('expected an error');
+  return r.error;
+}
+
+describe('bad input is an error value naming what and where', () => {
+  it.each([
+    ['first non-finite measurement', lotInput({}, { measurements: [...ramp(20, 500, 1), Number.NaN, Infinity] }), 'measurement-not-finite', '/lot/measurements/20'],
+    ['first negative measurement', lotInput({}, { measurements: [500, 501, -1, -2] }), 'measurement-negative', '/lot/measurements/2'],
+    ['a string among measurements', lotInput({}, { measurements: [500, '501' as unknown as number] }), 'measurement-not-finite', '/lot/measurements/1'],
+    ['unknown declared unit', lotInput({ unit: 'grams' as never }, { measurements: [500, 501] }), 'unknown-unit', '/product/unit'],
+    ['unknown measurement unit', lotInput({}, { measurementUnit: 'stone' as never, measurements: [500, 501] }), 'unknown-unit', '/lot/measurementUnit'],
+    ['lot smaller than sample', lotInput({}, { lotSize: 10, measurements: ramp(30, 500, 1) }), 'lot-smaller-than-sample', '/lot/lotSize'],
+    ['n < 2 for a t test', lotInput({}, { lotSize: 1, measurements: [500] }), 'too-few-measurements', '/lot/measurements'],
+    ['unknown rulebook', lotInput({ rulebook: { id: 'nope' as never } }, { measurements: [500, 501] }), 'unknown-rulebook', '/product/rulebook/id'],
+    ['Qn outside the TNE table (Directive 76/211/EEC scope 5 g to 10 kg)', lotInput({ nominalQuantity: 2 }, { measurements: [2, 2] }), 'outside-rulebook-scope', '/product/nominalQuantity'],
+    ['volume declared, mass measured, no density', lotInput({ unit: 'mL' }, { measurements: [500, 501] }), 'density-required', '/product/density'],
+    ['per-pack tares not paired', lotInput({ tareMode: 'per-pack' }, { measurements: [520, 521], tares: [20] }), 'tare-count-mismatch', '/lot/tares'],
+    ['tare larger than gross', lotInput({ tareMode: 'per-pack' }, { measurements: [520, 10], tares: [20, 20] }), 'net-negative', '/lot/measurements/1'],
+    ['alpha out of range (custom)', lotInput({ rulebook: { id: 'custom', params: { alpha: 1.5 } } }, { measurements: [500, 501] }), 'invalid-parameter', '/product/rulebook/params/alpha'],
+  ])('%s', (_label, input, code, pointer) => {
+    expect(errorOf(input)).toMatchObject({ code, pointer });
+  });
+});
+
+describe('gross to net, units and density (units exact per NIST SP 811)', () => {
+  it('takes a fixed tare off gross weights', () => {
+    const v = verdictOf(lotInput({ tareMode: 'fixed', fixedTare: 20 }, { measurements: ramp(30, 522, 2) }));
+    expect(v.statistics.descriptive.mean).toBeCloseTo(502, 12);
+    expect(v.net.tareMean).toBe(20);
+  });
+  it('takes paired per-pack tares off gross weights', () => {
+    const gross = ramp(30, 522, 2);
+    const tares = gross.map((_, i) => 19 + (i % 3));
+    const v = verdictOf(lotInput({ tareMode: 'per-pack' }, { measurements: gross, tares }));
+    expect(v.statistics.descriptive.mean).toBeCloseTo(502, 12);
+  });
+  it('uses the mean of a tare sample and warns when its spread is large against the TNE', () => {
+    const calm = verdictOf(lotInput({ tareMode: 'sample' }, { measurements: ramp(30, 522, 2), tareSample: [19.9, 20, 20.1] }));
+    expect(calm.net.tareMean).toBeCloseTo(20, 12);
+    expect(calm.warnings).toEqual([]);
+    const wild = verdictOf(lotInput({ tareMode: 'sample' }, { measurements: ramp(30, 522, 2), tareSample: [10, 20, 30] }));
+    expect(wild.warnings.join(' ')).toMatch(/tare sample/);
+  });
+  it('converts mass to a declared volume through the density at 20 °C (net volume = net mass / density)', () => {
+    const v = verdictOf(lotInput({ unit: 'mL', density: 1.03 }, { measurementUnit: 'g', measurements: ramp(30, 515, 1) }));
+    expect(v.statistics.descriptive.mean).toBeCloseTo(500, 10);
+    expect(v.net.unit).toBe('mL');
+  });
+  it('converts kilograms measured to grams declared, and pounds declared through 453.59237 g', () => {
+    expect(verdictOf(lotInput({}, { measurementUnit: 'kg', measurements: ramp(30, 0.502, 0.001) })).statistics.descriptive.mean).toBeCloseTo(502, 10);
+    const lb = verdictOf(lotInput({ nominalQuantity: 1, unit: 'lb' }, { measurementUnit: 'g', measurements: ramp(30, 460, 1) }));
+    expect(lb.statistics.descriptive.mean).toBeCloseTo(460 / 453.59237, 13);
+    expect(lb.net.tolerableNegativeErrorBase).toBe(13.7); // 3 % of 453.59237 g = 13.607… → 13.7 g (Annex I 2.4)
+  });
+});
+
+describe('determinism and plain JSON', () => {
+  it('returns the same verdict for the same input, with no NaN, Infinity or undefined', () => {
+    const input = lotInput({}, { measurements: ramp(30, 501, 4) });
+    const a = JSON.stringify(verdictOf(input));
+    const b = JSON.stringify(verdictOf(structuredClone(input)));
+    expect(a).toBe(b);
+    const walk = (v: unknown): void => {
+      if (typeof v === 'number') expect(Number.isFinite(v)).toBe(true);
+      else if (Array.isArray(v)) v.forEach(walk);
+      else if (v && typeof v === 'object') for (const x of Object.values(v)) { expect(x).not.toBeUndefined(); walk(x); }
+    };
+    walk(verdictOf(input));
+  });
+  it('carries engine version, rulebook id, version and source, and the caution', () => {
+    const v = verdictOf(lotInput({}, { measurements: ramp(30, 501, 4) }));
+    expect(v.engineVersion).toMatch(/^\d+\.\d+\.\d+$/);
+    expect(v.rulebook).toMatchObject({ id: 'eu-76-211', source: expect.stringMatching(/76\/211\/EEC/) });
+    expect(v.caution).toMatch(/responsible person/);
+  });
+});

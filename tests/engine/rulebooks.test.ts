@@ -1,0 +1,179 @@
+import { describe, expect, it } from 'vitest';
+import { evaluateLot, listRulebooks } from '../../shared/engine';
+import { meanCheckFactor } from '../../shared/engine/rulebooks/criteria';
+import { EU_DESTRUCTIVE_PLAN, EU_DOUBLE_PLANS, euPlan } from '../../shared/engine/rulebooks/eu76211';
+import { lotInput, ramp, shuffled, verdictOf } from './helpers';
+
+describe('mean-check factor λ = t(0.995; n − 1)/√n (Directive 76/211/EEC Annex II 2.3.3)', () => {
+  it.each([
+    [30, 0.503], // non-destructive, lot 100–500
+    [50, 0.379], // non-destructive, lot over 500
+    [20, 0.64], // destructive
+  ])('n = %d prints %d', (n, printed) => {
+    expect(Number(meanCheckFactor(n).toFixed(3))).toBe(printed);
+  });
+});
+
+describe('sampling plans (Directive 76/211/EEC Annex II 2.2.1 double, 2.2.2 single)', () => {
+  it('has the double plan rows for lots 100–500, 501–3200 and over 3200 (Annex II 2.2.1)', () => {
+    expect(EU_DOUBLE_PLANS.map((r) => [r.minLot, r.first.n, r.first.accept, r.first.reject, r.second.n, r.second.accept, r.second.reject])).toEqual([
+      [100, 30, 1, 3, 30, 4, 5],
+      [501, 50, 2, 5, 50, 6, 7],
+      [3201, 80, 3, 7, 80, 8, 9],
+    ]);
+  });
+  it('uses 20 packs, accept ≤ 1, reject ≥ 2 for destructive testing (Annex II 2.2.2)', () => {
+    expect(EU_DESTRUCTIVE_PLAN).toEqual({ n: 20, accept: 1, reject: 2 });
+    expect(euPlan(5000, 'destructive')).toMatchObject({ kind: 'single', first: { n: 20 } });
+  });
+  it('picks the plan by lot size at the band edges (Annex II 2.2.1)', () => {
+    expect(euPlan(500, 'non-destructive')).toMatchObject({ first: { n: 30 }, meanN: 30 });
+    expect(euPlan(501, 'non-destructive')).toMatchObject({ first: { n: 50 }, meanN: 50 });
+    expect(euPlan(3200, 'non-destructive')).toMatchObject({ first: { n: 50 } });
+    expect(euPlan(3201, 'non-destructive')).toMatchObject({ first: { n: 80 }, meanN: 50 });
+    expect(euPlan(99, 'non-destructive')).toEqual({ kind: 'full' }); // Annex II 2.1: lots under 100, 100 % checking
+    expect(euPlan(99, 'destructive')).toBeNull();
+  });
+});
+
+/** A first sample of 30 (lot 400) with `short` packs below T1 = 485 g and the rest around 502 g. */
+function firstSample(short: number): number[] {
+  const xs = shuffled(ramp(30, 502, 3));
+  for (let i = 0; i < short; i++) xs[3 + 7 * i] = 484;
+  return xs;
+}
+
+describe('eu-76-211 decisions (Directive 76/211/EEC Annex I 1.1–1.3, Annex II 2.2–2.3)', () => {
+  it('accepts a lot whose mean, T1 count and T2 count all pass', () => {
+    const v = verdictOf(lotInput({}, { measurements: firstSample(1) }));
+    expect(v.decision).toBe('conforming');
+    expect(v.criteria.map((c) => [c.id, c.passed])).toEqual([
+      ['sample-size', true],
+      ['mean', true],
+      ['t1', true],
+      ['t2', true],
+    ]);
+    expect(v.net).toMatchObject({ tolerableNegativeError: 15, t1Limit: 485, t2Limit: 470 });
+  });
+
+  it('asks for a second sample of 30 when the first has 2 packs below T1 (between accept 1 and reject 3)', () => {
+    const v = verdictOf(lotInput({}, { measurements: firstSample(2) }));
+    expect(v.decision).toBe('second-sample-required');
+    expect(v.secondSample).toEqual({ additionalPacks: 30 });
+    expect(v.criteria.find((c) => c.id === 't1')!.passed).toBeNull();
+  });
+
+  it('rejects at the first sample with 3 packs below T1 (rejection number 3)', () => {
+    expect(verdictOf(lotInput({}, { measurements: firstSample(3) })).decision).toBe('nonconforming');
+  });
+
+  it('decides on both samples together: 4 cumulative defectives accepted, 5 rejected (Annex II 2.2.1)', () => {
+    const previous = firstSample(2);
+    const ok = verdictOf(lotInput({}, { previousSample: previous, measurements: firstSample(2) }));
+    expect(ok.decision).toBe('conforming');
+    expect(ok.net.count).toBe(60);
+    const bad = verdictOf(lotInput({}, { previousSample: previous, measurements: firstSample(3) }));
+    expect(bad.decision).toBe('nonconforming');
+  });
+
+  it('refuses a second sample when the first one already decided the lot', () => {
+    const r = evaluateLot(lotInput({}, { previousSample: firstSample(0), measurements: firstSample(0) }));
+    expect(r.ok).toBe(false);
+    if (!r.ok) expect(r.error).toMatchObject({ code: 'second-sample-not-required', pointer: '/lot/previousSample' });
+  });
+
+  it('fails the mean check when x̄ < Qn − λ·s, with the limit in the sentence', () => {
+    const xs = shuffled(ramp(30, 497, 3));
+    const v = verdictOf(lotInput({}, { measurements: xs }));
+    const mean = v.criteria.find((c) => c.id === 'mean')!;
+    expect(v.decision).toBe('nonconforming');
+    expect(mean.passed).toBe(false);
+    expect(mean.limit).toBeCloseTo(500 - meanCheckFactor(30) * v.statistics.descriptive.standardDeviation!, 12);
+    expect(mean.sentence).toMatch(/^mean 497 g is below the lower limit 499\.\d+ g = 500 g − 0\.503 × 1\.\d+ g \(n = 30\)$/);
+    expect(v.statistics.meanTest.conclusion).toBe('reject H0');
+  });
+
+  it('fails any lot with a pack below T2 = Qn − 2·TNE (Annex I 1.3)', () => {
+    const xs = firstSample(0);
+    xs[5] = 469;
+    const v = verdictOf(lotInput({}, { measurements: xs }));
+    expect(v.criteria.find((c) => c.id === 't2')!.passed).toBe(false);
+    expect(v.decision).toBe('nonconforming');
+  });
+
+  it('says insufficient-data when the sample is smaller than the plan needs', () => {
+    const v = verdictOf(lotInput({ nominalQuantity: 500 }, { lotSize: 4000, measurements: ramp(50, 502, 2) }));
+    expect(v.decision).toBe('insufficient-data');
+    expect(v.criteria[0]).toMatchObject({ id: 'sample-size', observed: 50, limit: 80, passed: false });
+  });
+
+  it('checks every pack of a lot under 100 and then compares the mean with Qn itself (Annex II 2.1, Annex I 1.1)', () => {
+    expect(verdictOf(lotInput({}, { lotSize: 40, measurements: ramp(39, 503, 2) })).decision).toBe('insufficient-data');
+    const v = verdictOf(lotInput({}, { lotSize: 40, measurements: ramp(40, 500.5, 2) }));
+    expect(v.decision).toBe('conforming');
+    expect(v.criteria.find((c) => c.id === 'mean')).toMatchObject({ limit: 500, passed: true });
+  });
+
+  it('refuses destructive testing of a lot under 100 (Annex II 2.1)', () => {
+    const r = evaluateLot(lotInput({}, { lotSize: 50, testing: 'destructive', measurements: ramp(20, 502, 2) }));
+    expect(r.ok).toBe(false);
+    if (!r.ok) expect(r.error.pointer).toBe('/lot/testing');
+  });
+
+  it('decides zero spread by the plain meaning of the rule: equal packs at Qn conform, below Qn do not', () => {
+    const at = verdictOf(lotInput({}, { measurements: Array(30).fill(500) }));
+    expect(at.decision).toBe('conforming');
+    expect(at.statistics.meanTest.statistic).toBeNull();
+    expect(at.statistics.meanTest.pValue).toBe(1);
+    const below = verdictOf(lotInput({}, { measurements: Array(30).fill(499.9) }));
+    expect(below.decision).toBe('nonconforming');
+    expect(below.statistics.meanTest.pValue).toBe(0);
+    expect(JSON.stringify(below)).not.toMatch(/NaN|Infinity|null,null/);
+  });
+});
+
+describe('oiml-r87-2016 (plan from memory; verify — these pin our implementation, not the standard)', () => {
+  it('uses 50 packs with 3 allowed below T1 for a lot of 400, and no T2', () => {
+    const xs = shuffled(ramp(50, 502, 3));
+    xs[4] = xs[9] = xs[14] = 484;
+    const v = verdictOf(lotInput({ rulebook: { id: 'oiml-r87-2016' } }, { measurements: xs }));
+    expect(v.decision).toBe('conforming');
+    xs[19] = 484;
+    expect(verdictOf(lotInput({ rulebook: { id: 'oiml-r87-2016' } }, { measurements: xs })).decision).toBe('nonconforming');
+  });
+});
+
+describe('custom rulebook', () => {
+  it('fails the mean criterion exactly when its t test rejects H0 at the chosen α', () => {
+    const xs = shuffled(ramp(20, 499.3, 2));
+    const loose = verdictOf(lotInput({ rulebook: { id: 'custom', params: { alpha: 0.001 } } }, { measurements: xs }));
+    const strict = verdictOf(lotInput({ rulebook: { id: 'custom', params: { alpha: 0.2 } } }, { measurements: xs }));
+    expect(loose.statistics.meanTest.pValue).toBeGreaterThan(0.001);
+    expect(loose.decision).toBe('conforming');
+    expect(strict.decision).toBe('nonconforming');
+  });
+  it('counts packs beyond a user-entered lower limit (e.g. Qn − MAV) against the allowed count', () => {
+    const xs = shuffled(ramp(12, 503, 2));
+    xs[2] = 490;
+    const rb = (allowed: number) => ({ id: 'custom' as const, params: { lowerLimit: { value: 491, allowed } } });
+    expect(verdictOf(lotInput({ rulebook: rb(1) }, { measurements: xs })).decision).toBe('conforming');
+    expect(verdictOf(lotInput({ rulebook: rb(0) }, { measurements: xs })).decision).toBe('nonconforming');
+  });
+  it('uses a z test when the process standard deviation is known', () => {
+    const v = verdictOf(lotInput({ rulebook: { id: 'custom', params: { knownStandardDeviation: 2 } } }, { measurements: ramp(10, 501, 1) }));
+    expect(v.statistics.meanTest.method).toBe('one-sample z');
+    expect(v.statistics.meanTest.degreesOfFreedom).toBeNull();
+  });
+});
+
+describe('listRulebooks', () => {
+  it('lists every rulebook with version and source citation', () => {
+    const ids = listRulebooks().map((r) => [r.id, r.version.length > 0, r.source.length > 0]);
+    expect(ids).toEqual([
+      ['eu-76-211', true, true],
+      ['oiml-r87-2016', true, true],
+      ['custom', true, true],
+    ]);
+    expect(listRulebooks().find((r) => r.id === 'oiml-r87-2016')!.source).toMatch(/from memory; verify/);
+  });
+});
