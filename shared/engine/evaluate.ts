@@ -11,7 +11,6 @@ import { rulebookFor } from './rulebooks/registry';
 import { describe } from './stats/describe';
 import { tTestFromSummary, zTestFromSummary } from './inference/meanTest';
 import { assumptionChecks } from './assumptions/checks';
-import { countBelow } from './rulebooks/criteria';
 import { formatNumber, formatPValue } from './format';
 
 export const CAUTION =
@@ -113,8 +112,8 @@ export function evaluateLot(input: LotInput): EngineResult {
       count: net.length,
       tareApplied: converted.data.tareApplied,
       tareMean: converted.data.tareMean,
-      belowT1Indices: t1Limit === null ? [] : countBelow(net, t1Limit).indices,
-      belowT2Indices: t2Limit === null ? [] : countBelow(net, t2Limit).indices,
+      belowT1Indices: judged.belowT1Indices ?? [],
+      belowT2Indices: judged.belowT2Indices ?? [],
     },
     warnings,
     engineVersion: ENGINE_VERSION,

@@ -201,6 +201,12 @@ export function toNet(input: LotInput): { ok: true; data: NetData } | { ok: fals
   }
 
   const fill = (values: readonly number[], tares: readonly number[] | null, offset: number, pointer: string) => {
+    if (tares === null && constantTare === 0) {
+      // net measured (or zero tare): values are already checked finite and ≥ 0
+      if (factor === 1) net.set(values, offset);
+      else for (let i = 0; i < values.length; i++) net[offset + i] = values[i]! * factor;
+      return null;
+    }
     for (let i = 0; i < values.length; i++) {
       const tare = tares === null ? constantTare : tares[i]! * tareToMeasured;
       const v = (values[i]! - tare) * factor;

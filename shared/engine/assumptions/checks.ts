@@ -108,7 +108,7 @@ export function assumptionChecks(
 
   // Grubbs
   const gTitle = 'Grubbs test for one outlier';
-  const g = grubbs(x, d.mean, d.standardDeviation ?? 0);
+  const g = grubbs(x, d.mean, d.standardDeviation ?? 0, { min: d.min, max: d.max });
   if (g.value === null) out.push(notRun('grubbs', gTitle, g.reason));
   else {
     const v = g.value;

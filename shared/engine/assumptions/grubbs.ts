@@ -17,17 +17,36 @@ export interface GrubbsResult {
   value: number;
 }
 
-export function grubbs(x: ArrayLike<number>, mean: number, standardDeviation: number): Maybe<GrubbsResult> {
+/** The most extreme pack is the minimum or the maximum; pass the extent to find it without a full scan of deviations. */
+export function grubbs(
+  x: ArrayLike<number>,
+  mean: number,
+  standardDeviation: number,
+  extent?: { min: number; max: number },
+): Maybe<GrubbsResult> {
   const n = x.length;
   if (n < 3) return none('Grubbs’ test needs at least 3 measurements');
   if (!(standardDeviation > 0)) return none('all measurements are equal, so there is no outlier to test');
+  let lo = extent?.min;
+  let hi = extent?.max;
+  if (lo === undefined || hi === undefined) {
+    lo = Infinity;
+    hi = -Infinity;
+    for (let i = 0; i < n; i++) {
+      if (x[i]! < lo) lo = x[i]!;
+      if (x[i]! > hi) hi = x[i]!;
+    }
+  }
+  const dLo = mean - lo;
+  const dHi = hi - mean;
+  const maxDev = Math.max(dLo, dHi);
+  // first pack whose deviation is the largest (either end when they tie)
   let index = 0;
-  let maxDev = -1;
   for (let i = 0; i < n; i++) {
-    const d = Math.abs(x[i]! - mean);
-    if (d > maxDev) {
-      maxDev = d;
+    const v = x[i]!;
+    if ((v === lo && dLo === maxDev) || (v === hi && dHi === maxDev)) {
       index = i;
+      break;
     }
   }
   const g = maxDev / standardDeviation;

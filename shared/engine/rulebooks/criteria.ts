@@ -13,7 +13,7 @@ export function meanCheckFactor(n: number): number {
 }
 
 /** Counts net values strictly below a limit, keeping the first `keep` indices. */
-export function countBelow(x: ArrayLike<number>, limit: number, keep = 100): { count: number; indices: number[] } {
+export function countBelow(x: Float64Array, limit: number, keep = 100): { count: number; indices: number[] } {
   let count = 0;
   const indices: number[] = [];
   for (let i = 0; i < x.length; i++) {
@@ -26,7 +26,7 @@ export function countBelow(x: ArrayLike<number>, limit: number, keep = 100): { c
 }
 
 /** Counts net values strictly above a limit. */
-export function countAbove(x: ArrayLike<number>, limit: number): number {
+export function countAbove(x: Float64Array, limit: number): number {
   let count = 0;
   for (let i = 0; i < x.length; i++) if (x[i]! > limit) count++;
   return count;

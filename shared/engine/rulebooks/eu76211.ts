@@ -123,6 +123,8 @@ function judge(ctx: JudgeContext): Judgement | { error: ReturnType<typeof engine
       ],
       insufficient: false,
       additionalPacks: null,
+      belowT1Indices: t1.indices,
+      belowT2Indices: t2.indices,
     };
   }
 
@@ -164,6 +166,8 @@ function judge(ctx: JudgeContext): Judgement | { error: ReturnType<typeof engine
       ],
       insufficient: false,
       additionalPacks: null,
+      belowT1Indices: t1.indices,
+      belowT2Indices: t2.indices,
     };
   }
 
@@ -183,6 +187,8 @@ function judge(ctx: JudgeContext): Judgement | { error: ReturnType<typeof engine
     criteria: [size, meanCriterion(mean, sd, n, qn, meanCheckFactor(n), unit), t1c, t2Criterion(t2.count, t2Limit, unit)],
     insufficient: false,
     additionalPacks: t1c.passed === null && plan.kind === 'double' ? plan.second.n : null,
+    belowT1Indices: t1.indices,
+    belowT2Indices: t2.indices,
   };
 }
 

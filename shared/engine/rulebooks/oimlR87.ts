@@ -82,6 +82,8 @@ function judge(ctx: JudgeContext): Judgement | { error: ReturnType<typeof engine
     ],
     insufficient: false,
     additionalPacks: null,
+    belowT1Indices: t1.indices,
+    belowT2Indices: t2.indices,
   };
 }
 

@@ -24,6 +24,9 @@ export interface Judgement {
   /** TNE in the declared unit and in g/mL, or null when the rulebook has none. */
   tne: { value: number; baseValue: number } | null;
   warnings: string[];
+  /** 0-based indices of packs below T1 and below T2 (first 100 each), when the rulebook has a TNE. */
+  belowT1Indices?: number[];
+  belowT2Indices?: number[];
 }
 
 export interface Rulebook {

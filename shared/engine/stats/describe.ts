@@ -10,7 +10,7 @@ export function describe(x: ArrayLike<number>, unit: Unit): DescriptiveStatistic
   const m = mean(x) as number;
   const sd = sampleStandardDeviation(x, m);
   const ext = extent(x) as { min: number; max: number };
-  const [q1, med, q3] = quantiles(x, [0.25, 0.5, 0.75]) as [number, number, number];
+  const [q1, med, q3] = quantiles(x, [0.25, 0.5, 0.75], ext) as [number, number, number];
   const r1 = lag1Autocorrelation(x, m);
   return {
     n: x.length,

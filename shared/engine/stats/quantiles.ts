@@ -4,7 +4,7 @@
  * Quantiles follow Hyndman & Fan (1996), "Sample quantiles in statistical packages", The American
  * Statistician 50(4):361–365, definition 7 (linear interpolation between order statistics at
  * h = (n − 1)·p; the default of R's `quantile`). The needed order statistics are found by
- * selection (Hoare 1961, "Algorithm 65: FIND", Communications of the ACM 4(7):321) on a copy, in
+ * counting into bins, or selection (Hoare 1961, "Algorithm 65: FIND", Communications of the ACM 4(7):321) on a copy, in
  * expected O(n), falling back to a typed-array sort when partitioning degenerates.
  */
 
@@ -55,27 +55,108 @@ function minOf(a: Float64Array, lo: number, hi: number): number {
 }
 
 /**
- * Quantiles at the given probabilities (ascending, each in [0, 1]) by definition 7 of Hyndman &
- * Fan (1996). Returns null for an empty sample. Does not modify `x`.
+ * The order statistics at 0-based ranks `ranks` of a large sample, by one counting pass over
+ * equal-width bins between min and max (binning is monotone, so every order statistic lies in the
+ * bin its rank falls into) and a sort of only the values in the needed bins — O(n), a few
+ * milliseconds for 10⁶ values where a full sort takes ~100 ms. Falls back to selection when the
+ * values crowd into few bins.
  */
-export function quantiles(x: ArrayLike<number>, probabilities: readonly number[]): number[] | null {
+function orderStatisticsByBins(x: ArrayLike<number>, ranks: readonly number[], min: number, max: number): number[] | null {
+  const n = x.length;
+  const bins = Math.min(4096, Math.max(16, n >>> 4)); // small enough for the counts to stay in L1 cache
+  const scale = bins / (max - min);
+  if (!Number.isFinite(scale)) return null;
+  const binIndex = new Uint16Array(n);
+  const counts = new Int32Array(bins);
+  for (let i = 0; i < n; i++) {
+    let b = Math.floor((x[i]! - min) * scale);
+    if (b >= bins) b = bins - 1;
+    binIndex[i] = b;
+    counts[b]!++;
+  }
+  // For each rank: its bin, and the rank of that bin's first value.
+  const rankBin = new Int32Array(ranks.length);
+  const rankBase = new Int32Array(ranks.length);
+  const offset = new Int32Array(bins).fill(-1);
+  let acc = 0;
+  let total = 0;
+  for (let b = 0; b < bins; b++) {
+    const c = counts[b]!;
+    for (let r = 0; r < ranks.length; r++) {
+      const k = ranks[r]!;
+      if (k >= acc && k < acc + c) {
+        rankBin[r] = b;
+        rankBase[r] = acc;
+        if (offset[b] === -1) {
+          offset[b] = total;
+          total += c;
+        }
+      }
+    }
+    acc += c;
+  }
+  if (total > n / 4) return null;
+  const buf = new Float64Array(total);
+  const cursor = offset.slice();
+  for (let i = 0; i < n; i++) {
+    const b = binIndex[i]!;
+    const at = cursor[b]!;
+    if (at >= 0) {
+      buf[at] = x[i]!;
+      cursor[b] = at + 1;
+    }
+  }
+  for (let b = 0; b < bins; b++) {
+    const o = offset[b]!;
+    if (o >= 0) buf.subarray(o, o + counts[b]!).sort();
+  }
+  return ranks.map((k, r) => buf[offset[rankBin[r]!]! + (k - rankBase[r]!)]!);
+}
+
+/**
+ * Quantiles at the given probabilities (ascending, each in [0, 1]) by definition 7 of Hyndman &
+ * Fan (1996). Returns null for an empty sample. Does not modify `x`. Pass the sample's extent when
+ * known (it saves a pass on large samples).
+ */
+export function quantiles(x: ArrayLike<number>, probabilities: readonly number[], known?: { min: number; max: number }): number[] | null {
   const n = x.length;
   if (n === 0) return null;
-  const a = Float64Array.from(x);
-  if (n <= 256) {
-    a.sort();
-    return probabilities.map((p) => {
-      const h = (n - 1) * p;
-      const lo = Math.floor(h);
-      const hiIdx = Math.min(lo + 1, n - 1);
-      return a[lo]! + (h - lo) * (a[hiIdx]! - a[lo]!);
-    });
-  }
-  const out: number[] = [];
-  let from = 0;
-  for (const p of probabilities) {
+  const positions = probabilities.map((p) => {
     const h = (n - 1) * p;
     const lo = Math.floor(h);
+    return { h, lo, hi: Math.min(lo + 1, n - 1) };
+  });
+  const interpolate = (get: (k: number) => number) =>
+    positions.map(({ h, lo, hi }) => {
+      const a = get(lo);
+      return a + (h - lo) * (get(hi) - a);
+    });
+  if (n <= 256) {
+    const a = Float64Array.from(x).sort();
+    return interpolate((k) => a[k]!);
+  }
+  let min = known?.min;
+  let max = known?.max;
+  if (min === undefined || max === undefined) {
+    min = Infinity;
+    max = -Infinity;
+    for (let i = 0; i < n; i++) {
+      const v = x[i]!;
+      if (v < min) min = v;
+      if (v > max) max = v;
+    }
+  }
+  if (min === max) return probabilities.map(() => min);
+  const ranks = positions.flatMap(({ lo, hi }) => [lo, hi]);
+  const byBins = orderStatisticsByBins(x, ranks, min, max);
+  if (byBins !== null) {
+    const at = new Map(ranks.map((k, i) => [k, byBins[i]!]));
+    return interpolate((k) => at.get(k)!);
+  }
+  const a = Float64Array.from(x);
+  const out: number[] = [];
+  let from = 0;
+  for (const { h, lo } of positions) {
     selectInPlace(a, lo, from, n - 1);
     const xlo = a[lo]!;
     const xhi = lo + 1 < n ? minOf(a, lo + 1, n - 1) : xlo;
