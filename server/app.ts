@@ -5,12 +5,15 @@ import { existsSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import express, { type Express } from 'express';
+import cookieParser from 'cookie-parser';
 import helmet from 'helmet';
 import { pinoHttp } from 'pino-http';
 import swaggerUi from 'swagger-ui-express';
 import * as OpenApiValidator from 'express-openapi-validator';
 import { loadApiDocument, operationsOf } from '../openapi/load';
 import { authenticate, authorize } from './http/access';
+import { createMeter } from './http/metering';
+import { registerSessionResolver } from './http/session-auth';
 import type { AppContext } from './http/context';
 import { notFoundHandler, PayloadTooLargeProblem, problemHandler } from './http/problem';
 import { allHandlers } from './routes';
@@ -90,7 +93,11 @@ export function createApp(ctx: AppContext): Express {
     next();
   });
 
-  app.use((req, res, next) => (API_PATH.test(req.path) ? authenticate(req, res, next) : next()));
+  // Console sessions (cookie) besides bearer keys; then rate limits and usage for every API request.
+  registerSessionResolver();
+  app.use(cookieParser());
+  const meter = createMeter(ctx);
+  app.use((req, res, next) => (API_PATH.test(req.path) ? authenticate(req, res, (err?: unknown) => void meter(req, res, next, err)) : next()));
   for (const op of operations) {
     app[op.method](expressPath(op.path), authorize(op.access, op.operationId));
   }

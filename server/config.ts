@@ -23,6 +23,62 @@ export interface Config {
   development: boolean;
   /** Check every response against the OpenAPI document too (on in tests). */
   validateResponses: boolean;
+  /** Outgoing e-mail (invitations, password resets). */
+  smtp: SmtpConfig;
+  /** Console sessions and the one-time links sent by e-mail. */
+  sessions: SessionConfig;
+  /** Request and sign-in limits, shared by every process through PostgreSQL. */
+  rateLimits: RateLimitConfig;
+  /** Verdict sealing, the ledger and notifications. */
+  verdicts: VerdictConfig;
+}
+
+export interface VerdictConfig {
+  /** Ed25519 private key (PKCS#8 PEM) for seals; null means "use or create <dataDir>/signing-key.pem". */
+  signingKeyPem: string | null;
+  /** Most verdicts one group commit appends to the ledger in one transaction. */
+  ledgerBatchMax: number;
+  /** Run the job workers (webhook delivery, alert e-mail) in this process. */
+  runJobs: boolean;
+  /** Attempts per webhook delivery before it is marked failed; retries back off exponentially. */
+  webhookRetryLimit: number;
+  /** First retry delay in seconds (doubled per attempt by the queue). */
+  webhookRetryDelaySeconds: number;
+  /** Time allowed for a receiver to answer, in milliseconds. */
+  webhookTimeoutMs: number;
+  /** Allow webhook URLs on loopback and private networks (development and tests). */
+  webhookAllowPrivateTargets: boolean;
+}
+
+export interface SmtpConfig {
+  host: string;
+  port: number;
+  /** TLS from the first byte (port 465 style); otherwise STARTTLS when the server offers it. */
+  secure: boolean;
+  user: string | null;
+  password: string | null;
+  from: string;
+  /** Start the local capturing SMTP fake on host:port (development only; never in production). */
+  fake: boolean;
+}
+
+export interface SessionConfig {
+  ttlHours: number;
+  invitationTtlHours: number;
+  passwordResetTtlMinutes: number;
+}
+
+export interface RateLimitConfig {
+  /** Requests per minute per API key (or per console session). */
+  perKeyPerMinute: number;
+  /** Requests per minute per organisation, all its keys and sessions together. */
+  perOrganisationPerMinute: number;
+  /** Requests per minute per client IP without a valid credential. */
+  perIpPerMinute: number;
+  /** Failed sign-ins per account per 15 minutes before sign-in is refused for it. */
+  signInFailuresPerAccount: number;
+  /** Failed sign-ins per client IP per 15 minutes. */
+  signInFailuresPerIp: number;
 }
 
 export class ConfigError extends Error {}
@@ -67,5 +123,35 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     seedDemo: bool(env, 'LOTPROOF_SEED_DEMO', databaseUrl === null),
     development,
     validateResponses: bool(env, 'LOTPROOF_VALIDATE_RESPONSES', false),
+    smtp: {
+      host: env.SMTP_HOST || '127.0.0.1',
+      port: int(env, 'SMTP_PORT', 4725, 0, 65535),
+      secure: bool(env, 'SMTP_SECURE', false),
+      user: env.SMTP_USER || null,
+      password: env.SMTP_PASSWORD || null,
+      from: env.SMTP_FROM || 'Lotproof <no-reply@lotproof.localhost>',
+      fake: development && bool(env, 'LOTPROOF_SMTP_FAKE', !env.SMTP_HOST),
+    },
+    sessions: {
+      ttlHours: int(env, 'LOTPROOF_SESSION_TTL_HOURS', 12, 1, 24 * 30),
+      invitationTtlHours: int(env, 'LOTPROOF_INVITATION_TTL_HOURS', 168, 1, 24 * 30),
+      passwordResetTtlMinutes: int(env, 'LOTPROOF_PASSWORD_RESET_TTL_MINUTES', 60, 5, 24 * 60),
+    },
+    rateLimits: {
+      perKeyPerMinute: int(env, 'LOTPROOF_RATE_LIMIT_PER_KEY', 3000, 1, 10_000_000),
+      perOrganisationPerMinute: int(env, 'LOTPROOF_RATE_LIMIT_PER_ORG', 12000, 1, 10_000_000),
+      perIpPerMinute: int(env, 'LOTPROOF_RATE_LIMIT_PER_IP', 3000, 1, 10_000_000),
+      signInFailuresPerAccount: int(env, 'LOTPROOF_SIGNIN_FAILURES_PER_ACCOUNT', 10, 1, 10_000),
+      signInFailuresPerIp: int(env, 'LOTPROOF_SIGNIN_FAILURES_PER_IP', 100, 1, 100_000),
+    },
+    verdicts: {
+      signingKeyPem: env.LOTPROOF_SIGNING_KEY ? env.LOTPROOF_SIGNING_KEY.replace(/\\n/g, '\n') : null,
+      ledgerBatchMax: int(env, 'LOTPROOF_LEDGER_BATCH_MAX', 256, 1, 5000),
+      runJobs: bool(env, 'LOTPROOF_RUN_JOBS', true),
+      webhookRetryLimit: int(env, 'LOTPROOF_WEBHOOK_RETRY_LIMIT', 8, 0, 50),
+      webhookRetryDelaySeconds: int(env, 'LOTPROOF_WEBHOOK_RETRY_DELAY_SECONDS', 10, 1, 3600),
+      webhookTimeoutMs: int(env, 'LOTPROOF_WEBHOOK_TIMEOUT_MS', 10_000, 100, 120_000),
+      webhookAllowPrivateTargets: bool(env, 'LOTPROOF_WEBHOOK_ALLOW_PRIVATE', development),
+    },
   };
 }

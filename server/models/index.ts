@@ -3,11 +3,17 @@
 import type { Sequelize } from 'sequelize';
 import { initApiKey } from './api-key';
 import { initOrganisation } from './organisation';
+import { initIdentityModels } from './identity';
+import { initVerdictModels } from './verdicts';
 
 export function initModels(sequelize: Sequelize): void {
   initOrganisation(sequelize);
   initApiKey(sequelize);
+  initIdentityModels(sequelize);
+  initVerdictModels(sequelize);
 }
 
 export { ApiKey } from './api-key';
 export { Organisation } from './organisation';
+export { AuditEvent, Invitation, PasswordReset, Session, UsageDay, User } from './identity';
+export { Product, WebhookEndpoint } from './verdicts';

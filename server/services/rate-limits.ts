@@ -1,0 +1,99 @@
+// Rate limits on rate-limiter-flexible's PostgreSQL store, so that every API process shares the
+// same counters: requests per key (or console user), per organisation, per IP without a valid
+// credential, and failed sign-ins per account and per IP.
+import { RateLimiterPostgres, RateLimiterRes } from 'rate-limiter-flexible';
+import type { Sequelize } from 'sequelize';
+import type { RateLimitConfig } from '../config';
+import { RateLimitedProblem } from '../http/problem';
+import type { Principal } from './principal';
+
+const TABLE = 'rate_limits';
+const SIGN_IN_WINDOW_SECONDS = 15 * 60;
+
+export interface LimitState {
+  limit: number;
+  remaining: number;
+  /** Seconds until the window resets. */
+  resetSeconds: number;
+}
+
+export interface RequestVerdict {
+  allowed: boolean;
+  /** The most constraining of the limits that applied. */
+  state: LimitState;
+}
+
+function limiter(sequelize: Sequelize, keyPrefix: string, points: number, duration: number): RateLimiterPostgres {
+  return new RateLimiterPostgres({
+    storeClient: sequelize,
+    storeType: 'sequelize',
+    tableName: TABLE,
+    tableCreated: true,
+    keyPrefix,
+    points,
+    duration,
+  });
+}
+
+function stateOf(res: RateLimiterRes, points: number): LimitState {
+  return { limit: points, remaining: Math.max(0, res.remainingPoints), resetSeconds: Math.max(1, Math.ceil(res.msBeforeNext / 1000)) };
+}
+
+export interface RateLimits {
+  /** Counts one request against the caller's limits (or the IP's, without a valid credential). */
+  consumeRequest(principal: Principal | undefined, ip: string): Promise<RequestVerdict>;
+  /** Throws a 429 problem when the account or IP has failed to sign in too often. */
+  assertSignInAllowed(email: string, ip: string): Promise<void>;
+  signInFailed(email: string, ip: string): Promise<void>;
+  signInSucceeded(email: string): Promise<void>;
+}
+
+export function createRateLimits(sequelize: Sequelize, cfg: RateLimitConfig): RateLimits {
+  const perKey = limiter(sequelize, 'key', cfg.perKeyPerMinute, 60);
+  const perOrg = limiter(sequelize, 'org', cfg.perOrganisationPerMinute, 60);
+  const perIp = limiter(sequelize, 'ip', cfg.perIpPerMinute, 60);
+  const failAccount = limiter(sequelize, 'signin-account', cfg.signInFailuresPerAccount, SIGN_IN_WINDOW_SECONDS);
+  const failIp = limiter(sequelize, 'signin-ip', cfg.signInFailuresPerIp, SIGN_IN_WINDOW_SECONDS);
+
+  async function consume(l: RateLimiterPostgres, key: string): Promise<{ ok: boolean; state: LimitState }> {
+    try {
+      return { ok: true, state: stateOf(await l.consume(key), l.points) };
+    } catch (e) {
+      if (e instanceof RateLimiterRes) return { ok: false, state: stateOf(e, l.points) };
+      throw e;
+    }
+  }
+
+  async function blocked(l: RateLimiterPostgres, key: string): Promise<number | null> {
+    const res = await l.get(key);
+    return res && res.consumedPoints >= l.points ? Math.max(1, Math.ceil(res.msBeforeNext / 1000)) : null;
+  }
+
+  return {
+    async consumeRequest(principal, ip) {
+      const checks = principal
+        ? await Promise.all([
+            consume(perKey, principal.kind === 'api-key' ? `k:${principal.keyId}` : `u:${principal.userId}`),
+            consume(perOrg, principal.organisationId),
+          ])
+        : [await consume(perIp, ip)];
+      const refused = checks.filter((c) => !c.ok);
+      const pick = (refused.length ? refused : checks).reduce((a, b) =>
+        refused.length ? (a.state.resetSeconds >= b.state.resetSeconds ? a : b) : a.state.remaining <= b.state.remaining ? a : b,
+      );
+      return { allowed: refused.length === 0, state: pick.state };
+    },
+    async assertSignInAllowed(email, ip) {
+      const wait = Math.max((await blocked(failAccount, email)) ?? 0, (await blocked(failIp, ip)) ?? 0);
+      if (wait > 0) {
+        throw new RateLimitedProblem(`Too many failed sign-ins for this account or from this address; try again in ${wait} seconds.`, wait);
+      }
+    },
+    async signInFailed(email, ip) {
+      await Promise.all([consume(failAccount, email), consume(failIp, ip)]);
+    },
+    async signInSucceeded(email) {
+      await failAccount.delete(email);
+    },
+  };
+}
