@@ -1,5 +1,5 @@
-// Who is signed in. The session itself is the HttpOnly cookie the sign-in reply sets; this store
-// only remembers what GET /v1/me said about it, and forgets it on sign-out or on any 401.
+// Who is signed in. The session itself is the HttpOnly cookie the sign-in reply sets (signIn);
+// this store only remembers what getSession said about it, and forgets it on sign-out or any 401.
 import { defineStore } from 'pinia';
 import { computed, ref } from 'vue';
 import { api, call, onUnauthorised } from '../api/client';
@@ -7,12 +7,12 @@ import { ApiError } from '../api/problem';
 import type { components } from '../../../shared/api/schema';
 import type { Role } from '../lib/navigation';
 
-export type Caller = components['schemas']['Caller'];
+export type SessionInfo = components['schemas']['SessionInfo'];
 
 export const useSessionStore = defineStore('session', () => {
-  const me = ref<Caller | null>(null);
+  const me = ref<SessionInfo | null>(null);
   const checked = ref(false);
-  const role = computed<Role | null>(() => (me.value?.kind === 'session' ? (me.value.role ?? null) : null));
+  const role = computed<Role | null>(() => me.value?.user.role ?? null);
   const signedIn = computed(() => role.value !== null);
 
   onUnauthorised(() => {
@@ -21,7 +21,7 @@ export const useSessionStore = defineStore('session', () => {
 
   async function load(): Promise<void> {
     try {
-      me.value = await call(api.GET('/v1/me'));
+      me.value = await call(api.GET('/v1/session'));
     } catch (err) {
       if (!(err instanceof ApiError) || (err.status !== 401 && err.status !== 403)) throw err;
       me.value = null;
@@ -31,8 +31,8 @@ export const useSessionStore = defineStore('session', () => {
   }
 
   async function signIn(email: string, password: string): Promise<void> {
-    await call(api.POST('/v1/session', { body: { email, password } }));
-    await load();
+    me.value = await call(api.POST('/v1/session', { body: { email, password } }));
+    checked.value = true;
   }
 
   async function signOut(): Promise<void> {

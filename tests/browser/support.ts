@@ -1,0 +1,91 @@
+// Browser-test support: the real app (tests/support/app.ts) on the test database, listening on a
+// free port and serving the console built into dist/console by tests/run.ts; Debian's Chromium
+// driven by playwright-core with a fresh, empty profile; screenshots into tests/artifacts/.
+import { mkdirSync, mkdtempSync, rmSync } from 'node:fs';
+import type { AddressInfo } from 'node:net';
+import type { Server } from 'node:http';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { chromium, type BrowserContext, type Page } from 'playwright-core';
+import { buildTestApp, createTestOrganisation, type TestApp } from '../support/app';
+import { createUser } from '../../server/services/users';
+import type { Role } from '../../server/services/principal';
+
+export const SCREENSHOTS = join(process.cwd(), 'tests', 'artifacts', 'screenshots');
+export const PASSWORD = 'correct horse battery staple';
+
+export interface Harness {
+  baseUrl: string;
+  testApp: TestApp;
+  organisationId: string;
+  users: Record<Role, string>;
+  /** A fresh browser (new empty profile) for one role; closed by `close()`. */
+  open: (opts?: { width?: number; height?: number }) => Promise<{ page: Page; context: BrowserContext }>;
+  close: () => Promise<void>;
+}
+
+const CHROMIUM_ARGS = ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking', '--disable-component-update', '--disable-sync'];
+
+export async function startHarness(label: string): Promise<Harness> {
+  const testApp = buildTestApp();
+  const server: Server = await new Promise((resolve) => {
+    const s = testApp.app.listen(0, '127.0.0.1', () => resolve(s));
+  });
+  const baseUrl = `http://127.0.0.1:${(server.address() as AddressInfo).port}`;
+  const org = await createTestOrganisation(`Browser ${label} packer`);
+  const users = {} as Record<Role, string>;
+  for (const role of ['admin', 'quality', 'auditor'] as const) {
+    const email = `${role}.${org.slug}@example.test`;
+    await createUser({ organisationId: org.id, email, role, password: PASSWORD, name: `${role} tester` });
+    users[role] = email;
+  }
+  const contexts: BrowserContext[] = [];
+  const profiles: string[] = [];
+  mkdirSync(SCREENSHOTS, { recursive: true });
+
+  return {
+    baseUrl,
+    testApp,
+    organisationId: org.id,
+    users,
+    async open(opts = {}) {
+      const dir = mkdtempSync(join(tmpdir(), 'lotproof-chromium-'));
+      profiles.push(dir);
+      const context = await chromium.launchPersistentContext(dir, {
+        executablePath: '/usr/bin/chromium',
+        headless: true,
+        args: CHROMIUM_ARGS,
+        viewport: { width: opts.width ?? 1280, height: opts.height ?? 900 },
+        acceptDownloads: true,
+        baseURL: baseUrl,
+      });
+      contexts.push(context);
+      const page = context.pages()[0] ?? (await context.newPage());
+      page.setDefaultTimeout(15_000);
+      return { page, context };
+    },
+    async close() {
+      for (const c of contexts) await c.close().catch(() => undefined);
+      for (const d of profiles) rmSync(d, { recursive: true, force: true });
+      await new Promise<void>((resolve) => server.close(() => resolve()));
+      await testApp.close();
+    },
+  };
+}
+
+export async function signIn(page: Page, email: string, password = PASSWORD): Promise<void> {
+  await page.goto('/sign-in');
+  await page.getByLabel('E-mail').fill(email);
+  await page.getByLabel('Password').fill(password);
+  await page.getByRole('button', { name: 'Sign in' }).click();
+  await page.locator('[data-nav]').waitFor();
+}
+
+export async function screenshot(page: Page, name: string): Promise<void> {
+  await page.screenshot({ path: join(SCREENSHOTS, `${name}.png`), fullPage: true });
+}
+
+/** Names of the navigation items the page shows, in order. */
+export async function navigationNames(page: Page): Promise<string[]> {
+  return page.locator('[data-nav-item]').evaluateAll((els) => els.map((e) => e.getAttribute('data-nav-item') ?? ''));
+}

@@ -1,0 +1,72 @@
+// The CSV preview: what the quality engineer sees before a lot is sent.
+import { describe, expect, it } from 'vitest';
+import { parseMeasurementsCsv } from '../../console/src/lib/csv';
+import { previewLot, type LotForm } from '../../console/src/lib/preview';
+import type { ProductSpec } from '../../shared/engine/types';
+
+const product: ProductSpec = { nominalQuantity: 500, unit: 'g', tareMode: 'none', rulebook: { id: 'eu-76-211' } };
+const form: LotForm = { lotCode: 'L-1', line: 'A', lotSize: 1000, testing: 'destructive', measurementUnit: 'g', measurementBasis: 'net' };
+
+function csv(values: number[], header = 'measurement'): string {
+  return [header, ...values.map(String)].join('\n');
+}
+
+describe('parseMeasurementsCsv', () => {
+  it('reads the named measurement column and ignores the others', () => {
+    const parsed = parseMeasurementsCsv('pack,weight,operator\n1,501.2,ann\n2,499.8,ben\n');
+    expect(parsed.measurements).toEqual([501.2, 499.8]);
+    expect(parsed.column).toBe('weight');
+    expect(parsed.problems).toEqual([]);
+  });
+
+  it('reads a single column of numbers without a header', () => {
+    expect(parseMeasurementsCsv('500.1\n499.9\n500.4').measurements).toEqual([500.1, 499.9, 500.4]);
+  });
+
+  it('reads decimal commas in a semicolon-separated file', () => {
+    const parsed = parseMeasurementsCsv('gross;tare\n512,5;12,1\n513,0;12,3\n');
+    expect(parsed.measurements).toEqual([512.5, 513]);
+    expect(parsed.tares).toEqual([12.1, 12.3]);
+  });
+
+  it('names the file row of a value that is not a number', () => {
+    const parsed = parseMeasurementsCsv('measurement\n500\nabc\n501');
+    expect(parsed.problems).toEqual(['Row 3: "abc" is not a number.']);
+    expect(parsed.measurements).toEqual([500, 501]);
+  });
+
+  it('says which header it could not use', () => {
+    expect(parseMeasurementsCsv('pack,operator\n1,ann').problems[0]).toMatch(/No measurement column.*"pack", "operator"/);
+  });
+});
+
+describe('previewLot', () => {
+  it('gives the same decision the engine gives for a lot well above Qn', () => {
+    const values = Array.from({ length: 50 }, (_, i) => 505 + ((i * 7) % 11) / 5);
+    const preview = previewLot(product, form, parseMeasurementsCsv(csv(values)));
+    expect(preview.ok).toBe(true);
+    if (!preview.ok) return;
+    expect(preview.verdict.decision).toBe('conforming');
+    expect(preview.net).toHaveLength(50);
+    expect(preview.verdict.net.t1Limit).toBe(485); // 76/211/EEC Annex I 2.4: TNE for 500 g is 3 % = 15 g
+  });
+
+  it('finds a lot whose mean is below Qn nonconforming', () => {
+    const values = Array.from({ length: 50 }, (_, i) => 494 + ((i * 7) % 11) / 5);
+    const preview = previewLot(product, form, parseMeasurementsCsv(csv(values)));
+    expect(preview.ok && preview.verdict.decision).toBe('nonconforming');
+  });
+
+  it('refuses a lot size smaller than the sample, naming the field', () => {
+    const preview = previewLot(product, { ...form, lotSize: 3 }, parseMeasurementsCsv(csv([500, 501, 502, 503, 504])));
+    expect(preview.ok).toBe(false);
+    if (preview.ok) return;
+    expect(preview.pointer).toBe('/lot/lotSize');
+    expect(preview.message).toMatch(/lot size 3 is smaller than the 5 packs/);
+  });
+
+  it('passes file problems through without running the engine', () => {
+    const preview = previewLot(product, form, parseMeasurementsCsv('measurement\n500\n-\n'));
+    expect(preview).toEqual({ ok: false, message: 'Row 3: "-" is not a number.', pointer: null });
+  });
+});
