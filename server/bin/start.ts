@@ -11,6 +11,8 @@ import { startCluster, type RunningCluster } from '../platform/embedded-postgres
 import { startServer } from '../server';
 import { CONSOLE_DIST } from '../app';
 import { seedDemo } from '../demo/seed';
+import '../demo/users';
+import { startSmtpFake, type RunningSmtpFake } from '../platform/smtp-fake';
 
 async function buildConsoleIfMissing(): Promise<void> {
   if (existsSync(join(CONSOLE_DIST, 'index.html')) && !process.argv.includes('--rebuild')) return;
@@ -38,9 +40,16 @@ async function main(): Promise<void> {
   const stopCluster = () => cluster?.stop();
   try {
     await buildConsoleIfMissing();
-    const running = await startServer({ ...config, databaseUrl }, logger);
+    // Development: e-mail goes to a local SMTP fake on loopback; the console's mailbox page shows it.
+    let mailCatcher: RunningSmtpFake | null = null;
+    if (config.smtp.fake) {
+      mailCatcher = await startSmtpFake({ host: '127.0.0.1', port: config.smtp.port }).catch(() => startSmtpFake({ host: '127.0.0.1', port: 0 }));
+    }
+    const smtp = mailCatcher ? { ...config.smtp, host: mailCatcher.host, port: mailCatcher.port } : config.smtp;
+    const running = await startServer({ ...config, databaseUrl, smtp }, logger);
     const demo = config.seedDemo ? await seedDemo(running.ctx) : null;
     console.log(`\nLotproof is running.\n  console  ${running.url}/\n  API docs ${running.url}/docs\n  API      ${running.url}/v1\n  ready    ${running.url}/readyz`);
+    if (mailCatcher) console.log(`  mail     captured locally (SMTP 127.0.0.1:${mailCatcher.port}); read it at ${running.url}/dev/mailbox`);
     if (demo) console.log(demo.banner);
     console.log('\nPress Ctrl-C to stop.');
     let shuttingDown = false;
@@ -51,7 +60,8 @@ async function main(): Promise<void> {
       running
         .stop()
         .catch((err) => logger.error({ err }, 'error while stopping'))
-        .finally(() => {
+        .finally(async () => {
+          await mailCatcher?.stop();
           stopCluster();
           process.exit(0);
         });

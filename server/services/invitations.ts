@@ -52,40 +52,49 @@ export interface LinkOptions {
   ttlHours: number;
 }
 
-export async function createInvitation(
-  actor: Actor & { principal: Principal },
+/** Records an invitation and returns its one-time accept link; sends nothing. */
+export async function issueInvitation(
+  actor: Actor & { organisationId: string; userId?: string | null },
   input: { email: string; role: Role },
   opts: LinkOptions,
-): Promise<InvitationView> {
-  const organisationId = actor.principal.organisationId;
+): Promise<{ invitation: Invitation; link: string }> {
+  const { organisationId } = actor;
   const email = normaliseEmail(input.email);
   if (await User.findOne({ where: { email, removedAt: null } })) {
     throw new ConflictProblem(`${email} has an account already.`, 'account-exists');
   }
-  const org = await Organisation.findByPk(organisationId);
   const token = newToken();
   const now = new Date();
-  const inv = await Invitation.sequelize!.transaction(async (transaction) => {
-    await Invitation.update(
-      { revokedAt: now },
-      { where: { organisationId, email, acceptedAt: null, revokedAt: null }, transaction },
-    );
+  const invitation = await Invitation.sequelize!.transaction(async (transaction) => {
+    // a newer invitation to the same address replaces a pending one
+    await Invitation.update({ revokedAt: now }, { where: { organisationId, email, acceptedAt: null, revokedAt: null }, transaction });
     return Invitation.create(
       {
         organisationId,
         email,
         role: input.role,
         tokenHash: hashToken(token),
-        invitedBy: actor.principal.userId ?? null,
+        invitedBy: actor.userId ?? null,
         expiresAt: new Date(now.getTime() + opts.ttlHours * 3600_000),
       },
       { transaction },
     );
   });
-  const link = `${opts.publicUrl}/accept-invite?token=${token}`;
+  return { invitation, link: `${opts.publicUrl}/accept-invite?token=${token}` };
+}
+
+/** Invites someone by e-mail: records the invitation and sends the accept link. */
+export async function createInvitation(
+  actor: Actor & { principal: Principal },
+  input: { email: string; role: Role },
+  opts: LinkOptions,
+): Promise<InvitationView> {
+  const organisationId = actor.principal.organisationId;
+  const org = await Organisation.findByPk(organisationId);
+  const { invitation: inv, link } = await issueInvitation({ ...actor, organisationId, userId: actor.principal.userId }, input, opts);
   try {
     await deliver(
-      email,
+      inv.email,
       `You are invited to ${org?.name ?? 'an organisation'} on Lotproof`,
       [
         `You have been invited to join ${org?.name ?? 'an organisation'} on Lotproof with the role "${input.role}".`,
@@ -101,7 +110,7 @@ export async function createInvitation(
     await inv.destroy();
     throw err;
   }
-  await recordAudit(organisationId, actor, 'user.invited', { kind: 'invitation', id: inv.id }, { email, role: input.role });
+  await recordAudit(organisationId, actor, 'user.invited', { kind: 'invitation', id: inv.id }, { email: inv.email, role: input.role });
   return invitationView(inv);
 }
 

@@ -1,0 +1,197 @@
+// `npm run cli -- <command>`: the operator's tool for a fresh install and for scripts — create an
+// organisation and its first admin, issue keys (the secret is printed once), list and revoke keys.
+// Uses DATABASE_URL, or the embedded cluster under the data folder like `npm start` does.
+import { randomBytes } from 'node:crypto';
+import { mkdirSync } from 'node:fs';
+import { connect } from 'node:net';
+import { join } from 'node:path';
+import { parseArgs } from 'node:util';
+import { ConfigError, loadConfig } from '../config';
+import { openDatabase, type Database } from '../db/database';
+import { migrate } from '../db/migrate';
+import { ProblemError } from '../http/problem';
+import { ApiKey } from '../models';
+import { ensureDebianPackages, MissingPackagesError } from '../platform/debian-packages';
+import { startCluster, type RunningCluster } from '../platform/embedded-postgres';
+import { recordAudit } from '../services/audit-trail';
+import { issueInvitation } from '../services/invitations';
+import { apiKeyView, createKey, listKeys, revokeKey } from '../services/key-management';
+import { createOrganisation, findOrganisation } from '../services/organisations';
+import { SCOPES, type Principal, type Scope } from '../services/principal';
+import { createUser } from '../services/users';
+
+const USAGE = `Lotproof operator CLI
+
+  npm run cli -- org:create --name "Packer Ltd" --slug packer-ltd --admin-email a@packer.example [--invite]
+      Creates an organisation and its first admin. Prints a one-time password (the admin should
+      change it through "forgot password"), or with --invite an invitation link instead.
+  npm run cli -- org:list
+  npm run cli -- key:create --org <slug|id> --name "Line 3 gateway" --scopes lots:submit,verdicts:read [--expires 2030-01-01T00:00:00Z]
+      Issues an API key and prints its secret once.
+  npm run cli -- key:list --org <slug|id>
+  npm run cli -- key:revoke --org <slug|id> --key <key id | lpk_ prefix>
+
+Scopes: ${SCOPES.join(', ')}
+Database: DATABASE_URL, or else the embedded cluster in LOTPROOF_DATA_DIR (default .data).`;
+
+class UsageError extends Error {}
+
+function need(values: Record<string, unknown>, name: string): string {
+  const v = values[name];
+  if (typeof v !== 'string' || v.trim() === '') throw new UsageError(`--${name} is required`);
+  return v.trim();
+}
+
+/** The operator acts inside an organisation; the audit trail names the CLI. */
+function operator(organisationId: string): Principal {
+  return { organisationId, kind: 'api-key', scopes: ['keys:manage'] };
+}
+
+async function portOpen(port: number): Promise<boolean> {
+  return new Promise((resolve) => {
+    const s = connect({ host: '127.0.0.1', port }, () => {
+      s.destroy();
+      resolve(true);
+    });
+    s.on('error', () => resolve(false));
+  });
+}
+
+async function withDatabase<T>(fn: (db: Database, publicUrl: string, invitationTtlHours: number) => Promise<T>): Promise<T> {
+  const config = loadConfig();
+  let cluster: RunningCluster | null = null;
+  let url = config.databaseUrl;
+  let ownCluster = false;
+  if (!url) {
+    ensureDebianPackages(['postgresql']);
+    mkdirSync(config.dataDir, { recursive: true });
+    ownCluster = !(await portOpen(config.embeddedPgPort));
+    cluster = startCluster({ dir: join(config.dataDir, 'postgres'), port: config.embeddedPgPort, database: 'lotproof' });
+    url = cluster.url;
+  }
+  const db = openDatabase(url, undefined, 2);
+  try {
+    await migrate(db.sequelize);
+    return await fn(db, config.publicUrl, config.sessions.invitationTtlHours);
+  } finally {
+    await db.close();
+    if (ownCluster) cluster?.stop();
+  }
+}
+
+async function org(idOrSlug: string) {
+  const found = await findOrganisation(idOrSlug);
+  if (!found) throw new UsageError(`No organisation ${idOrSlug}`);
+  return found;
+}
+
+function parseScopes(raw: string): Scope[] {
+  const scopes = raw.split(',').map((s) => s.trim()).filter(Boolean);
+  const bad = scopes.filter((s) => !(SCOPES as readonly string[]).includes(s));
+  if (bad.length || scopes.length === 0) throw new UsageError(`--scopes must be a comma-separated list of: ${SCOPES.join(', ')}${bad.length ? ` (not: ${bad.join(', ')})` : ''}`);
+  return scopes as Scope[];
+}
+
+async function main(argv: string[]): Promise<void> {
+  const [command, ...rest] = argv;
+  const { values } = parseArgs({
+    args: rest,
+    options: {
+      name: { type: 'string' },
+      slug: { type: 'string' },
+      'admin-email': { type: 'string' },
+      invite: { type: 'boolean', default: false },
+      org: { type: 'string' },
+      scopes: { type: 'string' },
+      expires: { type: 'string' },
+      key: { type: 'string' },
+    },
+    strict: true,
+  });
+  const actor = (organisationId: string) => ({ principal: operator(organisationId), kind: 'operator' as const, label: 'operator CLI' });
+
+  switch (command) {
+    case 'org:create': {
+      const name = need(values, 'name');
+      const slug = need(values, 'slug');
+      const email = need(values, 'admin-email');
+      await withDatabase(async (_db, publicUrl, ttlHours) => {
+        const o = await createOrganisation({ name, slug });
+        console.log(`organisation ${o.name} (${o.slug}) id ${o.id}`);
+        if (values.invite) {
+          const { link } = await issueInvitation({ organisationId: o.id, kind: 'operator', label: 'operator CLI' }, { email, role: 'admin' }, { publicUrl, ttlHours });
+          console.log(`first admin ${email}: open this invitation link once to choose a password (expires in ${ttlHours} h):\n  ${link}`);
+        } else {
+          const password = randomBytes(18).toString('base64url');
+          const user = await createUser({ organisationId: o.id, email, role: 'admin', password, name: 'First admin' });
+          await recordAudit(o.id, { kind: 'operator', label: 'operator CLI' }, 'user.invited', { kind: 'user', id: user.id }, { email: user.email, role: 'admin', via: 'cli' });
+          console.log(`first admin ${user.email}, one-time password (shown once; change it with "forgot password"):\n  ${password}`);
+        }
+      });
+      return;
+    }
+    case 'org:list': {
+      await withDatabase(async (db) => {
+        const [rows] = await db.sequelize.query('SELECT id, slug, name, demo FROM organisations ORDER BY created_at');
+        for (const r of rows as Array<{ id: string; slug: string; name: string; demo: boolean }>) console.log(`${r.id}  ${r.slug.padEnd(24)} ${r.name}${r.demo ? '  [demo]' : ''}`);
+      });
+      return;
+    }
+    case 'key:create': {
+      const name = need(values, 'name');
+      const scopes = parseScopes(need(values, 'scopes'));
+      const expiresAt = values.expires ? String(values.expires) : null;
+      if (expiresAt && Number.isNaN(Date.parse(expiresAt))) throw new UsageError('--expires must be an ISO 8601 date-time');
+      await withDatabase(async () => {
+        const o = await org(need(values, 'org'));
+        const { key, secret } = await createKey(actor(o.id), { name, scopes, expiresAt: expiresAt ? new Date(expiresAt).toISOString() : null });
+        console.log(`key ${key.id} ${key.prefix} scopes ${key.scopes.join(',')}${key.expiresAt ? ` expires ${key.expiresAt}` : ''}`);
+        console.log(`secret (shown once; store it now):\n  ${secret}`);
+      });
+      return;
+    }
+    case 'key:list': {
+      await withDatabase(async () => {
+        const o = await org(need(values, 'org'));
+        for (const k of await listKeys(o.id)) {
+          console.log(`${k.id}  ${k.prefix}  ${k.status.padEnd(7)} ${k.scopes.join(',').padEnd(40)} last used ${k.lastUsedAt ?? 'never'}  ${k.name}`);
+        }
+      });
+      return;
+    }
+    case 'key:revoke': {
+      const ref = need(values, 'key');
+      await withDatabase(async () => {
+        const o = await org(need(values, 'org'));
+        const found = /^lpk_/.test(ref)
+          ? await ApiKey.findOne({ where: { organisationId: o.id, prefix: ref.replace(/^lpk_/, '').split('_')[0] } })
+          : /^[0-9a-f-]{36}$/.test(ref)
+            ? await ApiKey.findOne({ where: { organisationId: o.id, id: ref } })
+            : null;
+        if (!found) throw new UsageError(`No key ${ref} in ${o.slug}`);
+        const k = await revokeKey(actor(o.id), found.id);
+        console.log(`revoked ${k.id} ${apiKeyView(found).prefix} (${k.name})`);
+      });
+      return;
+    }
+    default:
+      console.log(USAGE);
+      if (command && command !== 'help' && command !== '--help') process.exitCode = 2;
+  }
+}
+
+main(process.argv.slice(2)).catch((err) => {
+  if (err instanceof UsageError || err instanceof ConfigError || err instanceof MissingPackagesError) {
+    console.error(err.message);
+    process.exitCode = 2;
+  } else if (err instanceof ProblemError) {
+    console.error(err.detail);
+    process.exitCode = 1;
+  } else if (err instanceof TypeError && /parseArgs|Unknown option/i.test(String(err.message))) {
+    console.error(`${err.message}\n\n${USAGE}`);
+    process.exitCode = 2;
+  } else {
+    console.error(err);
+    process.exitCode = 1;
+  }
+});
