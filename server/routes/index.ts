@@ -2,9 +2,10 @@
 import type { AppContext, Handlers } from '../http/context';
 import { systemHandlers } from './system';
 import { identityHandlers } from './identity';
+import { verdictHandlers } from './verdicts';
 
 export function allHandlers(ctx: AppContext): Handlers {
-  const areas: Handlers[] = [systemHandlers(ctx), identityHandlers(ctx)];
+  const areas: Handlers[] = [systemHandlers(ctx), identityHandlers(ctx), verdictHandlers(ctx)];
   const all: Handlers = {};
   for (const area of areas) {
     for (const [id, h] of Object.entries(area)) {

@@ -52,6 +52,608 @@ export interface paths {
         patch?: never;
         trace?: never;
     };
+    "/v1/session": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** The signed-in user, their organisation and when the session ends */
+        get: operations["getSession"];
+        put?: never;
+        /**
+         * Sign in to the console with e-mail and password
+         * @description Sets the `lotproof_session` cookie on success. Failed attempts are limited per account and
+         *     per client address; past the limit the answer is 429 with `Retry-After`.
+         */
+        post: operations["signIn"];
+        /** Sign out (ends this session at once) */
+        delete: operations["signOut"];
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/users": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** The organisation's console users */
+        get: operations["listUsers"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/users/{userId}": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                userId: components["parameters"]["UserId"];
+            };
+            cookie?: never;
+        };
+        get?: never;
+        put?: never;
+        post?: never;
+        /** Remove a user (their sessions end at once) */
+        delete: operations["removeUser"];
+        options?: never;
+        head?: never;
+        /**
+         * Change a user's role
+         * @description The last admin of an organisation cannot be given another role (409).
+         */
+        patch: operations["changeUserRole"];
+        trace?: never;
+    };
+    "/v1/invitations": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** Invitations sent, newest first */
+        get: operations["listInvitations"];
+        put?: never;
+        /**
+         * Invite someone by e-mail to join with a role
+         * @description Sends an e-mail with a one-time link to `/accept-invite?token=…` on the console. A newer
+         *     invitation to the same address replaces a pending one. 409 when the address has an account.
+         */
+        post: operations["createInvitation"];
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/invitations/{invitationId}": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        get?: never;
+        put?: never;
+        post?: never;
+        /** Revoke a pending invitation (its link stops working) */
+        delete: operations["revokeInvitation"];
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/invitations/inspect": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        get?: never;
+        put?: never;
+        /**
+         * What an invitation link offers (for the accept page)
+         * @description 422 when the token was used, revoked or has expired. The token is sent in the body so that it never lands in access logs.
+         */
+        post: operations["inspectInvitation"];
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/invitations/accept": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        get?: never;
+        put?: never;
+        /** Accept an invitation by choosing a password; then sign in */
+        post: operations["acceptInvitation"];
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/password-resets": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        get?: never;
+        put?: never;
+        /**
+         * Ask for a password reset link by e-mail
+         * @description Always 202, whether or not the address has an account, so the answer tells nobody which
+         *     addresses exist. The e-mail links to `/reset-password?token=…` on the console.
+         */
+        post: operations["requestPasswordReset"];
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/password-resets/complete": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        get?: never;
+        put?: never;
+        /** Set a new password from a reset link (ends every session of the account) */
+        post: operations["completePasswordReset"];
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/api-keys": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** The organisation's API keys (never their secrets) */
+        get: operations["listApiKeys"];
+        put?: never;
+        /**
+         * Issue an API key; the secret is in this response only
+         * @description Store the returned `secret` in your plant system's secret store now: Lotproof keeps only a
+         *     hash and cannot show it again. This operation takes no `Idempotency-Key`, because a stored
+         *     replay would have to keep the secret; if the response is lost, revoke the key and issue another.
+         */
+        post: operations["createApiKey"];
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/api-keys/{keyId}": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                keyId: components["parameters"]["KeyId"];
+            };
+            cookie?: never;
+        };
+        /** One API key (never its secret) */
+        get: operations["getApiKey"];
+        put?: never;
+        post?: never;
+        /** Revoke an API key; it is refused from the very next request, by every server process */
+        delete: operations["revokeApiKey"];
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/usage": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /**
+         * Requests, lots and measurements per key per UTC day
+         * @description Defaults to the last 31 days up to today (UTC); at most 366 days at once. Console use is one row per day with `keyId` null.
+         */
+        get: operations["getUsage"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/audit-events": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** The admin audit trail, newest first */
+        get: operations["listAuditEvents"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/dev/mailbox": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** E-mail captured by the local SMTP fake (development only; 404 in production) */
+        get: operations["getDevMailbox"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/.well-known/jwks.json": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** Public keys that sign seals (RFC 7517 JWK Set, RFC 8037 OKP Ed25519) */
+        get: operations["getJwks"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/rulebooks": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** The rulebooks a product can be judged by, with their sources and parameters */
+        get: operations["listRulebooks"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/products": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** Products of your organisation, newest first */
+        get: operations["listProducts"];
+        put?: never;
+        /** Define a product */
+        post: operations["createProduct"];
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/products/{productId}": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                productId: components["parameters"]["ProductId"];
+            };
+            cookie?: never;
+        };
+        /** One product */
+        get: operations["getProduct"];
+        put?: never;
+        post?: never;
+        /** Archive a product (its verdicts stay in the ledger; its SKU becomes free) */
+        delete: operations["archiveProduct"];
+        options?: never;
+        head?: never;
+        /** Change a product; stored verdicts keep the spec they were judged with */
+        patch: operations["updateProduct"];
+        trace?: never;
+    };
+    "/v1/lots": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        get?: never;
+        put?: never;
+        /**
+         * Submit a lot's measurements; returns the sealed verdict
+         * @description Send JSON, or `text/csv` with a header row: name the measurement column with `column`
+         *     and give the lot's fields as query parameters. Measurements are in production order.
+         *     Up to 1 000 000 measurements per lot (413 above). For the second sample of a
+         *     `second-sample-required` verdict, set `firstSampleVerdictId`: the new verdict judges both
+         *     samples together and links to the first.
+         *
+         *     An `Idempotency-Key` makes a retry safe: the same key with the same body returns the
+         *     first response byte for byte; with another body it is a 422.
+         *
+         *     **Caution:** the verdict supports a release decision by the packer's responsible person;
+         *     local weights-and-measures law and the competent authority prevail.
+         */
+        post: operations["submitLot"];
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/verdicts": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** Verdicts of your organisation, newest first */
+        get: operations["listVerdicts"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/verdicts/{verdictId}": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                verdictId: components["parameters"]["VerdictId"];
+            };
+            cookie?: never;
+        };
+        /** One verdict */
+        get: operations["getVerdict"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/verdicts/{verdictId}/export": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                verdictId: components["parameters"]["VerdictId"];
+            };
+            cookie?: never;
+        };
+        /** The sealed document of one verdict, for the offline verifier (canonical JSON) */
+        get: operations["exportVerdict"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/verdicts/{verdictId}/recompute": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                verdictId: components["parameters"]["VerdictId"];
+            };
+            cookie?: never;
+        };
+        get?: never;
+        put?: never;
+        /** Re-run the engine on the stored input and confirm the same result */
+        post: operations["recomputeVerdict"];
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/seals/{seal}": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                /** @description The verdict's seal (SHA-256, 64 hex digits) */
+                seal: string;
+            };
+            cookie?: never;
+        };
+        /** A verdict found by its seal, with its full record, signature and chain neighbours */
+        get: operations["getSeal"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/seals/verify": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        get?: never;
+        put?: never;
+        /** Check a sealed document you hold (hash, signature, presence in your ledger) */
+        post: operations["verifySeal"];
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/ledger/verify": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** Walk your organisation's chain and report the first break, if any */
+        get: operations["verifyLedger"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/exports/verdicts": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /**
+         * Export verdicts as CSV (one summary row each) or NDJSON (one sealed document a line)
+         * @description Oldest first, so an NDJSON export is a stretch of the chain the offline verifier can walk.
+         */
+        get: operations["exportVerdicts"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/webhooks": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** Webhook endpoints of your organisation */
+        get: operations["listWebhooks"];
+        put?: never;
+        /** Add an endpoint; the signing secret is shown once, in this response */
+        post: operations["createWebhook"];
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/webhooks/{webhookId}": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                webhookId: components["parameters"]["WebhookId"];
+            };
+            cookie?: never;
+        };
+        /** One endpoint */
+        get: operations["getWebhook"];
+        put?: never;
+        post?: never;
+        /** Remove an endpoint (its delivery log stays) */
+        delete: operations["deleteWebhook"];
+        options?: never;
+        head?: never;
+        /** Change an endpoint's URL, events, description or enabled flag */
+        patch: operations["updateWebhook"];
+        trace?: never;
+    };
+    "/v1/webhooks/{webhookId}/test": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                webhookId: components["parameters"]["WebhookId"];
+            };
+            cookie?: never;
+        };
+        get?: never;
+        put?: never;
+        /** Queue a signed `webhook.test` event to this endpoint */
+        post: operations["sendTestWebhook"];
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/webhooks/{webhookId}/deliveries": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                webhookId: components["parameters"]["WebhookId"];
+            };
+            cookie?: never;
+        };
+        /** Deliveries to this endpoint with every attempt, newest first */
+        get: operations["listWebhookDeliveries"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
 }
 export type webhooks = Record<string, never>;
 export interface components {
@@ -98,6 +700,481 @@ export interface components {
             userId?: string;
             email?: string;
         };
+        SignInRequest: {
+            email: string;
+            password: string;
+        };
+        TokenRequest: {
+            token: string;
+        };
+        /** @description At least 12 characters; a passphrase is best. */
+        NewPassword: string;
+        ConsoleUser: {
+            /** Format: uuid */
+            id: string;
+            email: string;
+            name: string;
+            role: components["schemas"]["Role"];
+            /** Format: date-time */
+            createdAt: string;
+        };
+        SessionInfo: {
+            user: components["schemas"]["ConsoleUser"];
+            organisation: {
+                /** Format: uuid */
+                id: string;
+                name: string;
+                demo: boolean;
+            };
+            /** Format: date-time */
+            expiresAt: string;
+        };
+        Invitation: {
+            /** Format: uuid */
+            id: string;
+            email: string;
+            role: components["schemas"]["Role"];
+            /** @enum {string} */
+            status: "pending" | "accepted" | "revoked" | "expired";
+            /** Format: date-time */
+            createdAt: string;
+            /** Format: date-time */
+            expiresAt: string;
+            /** Format: date-time */
+            acceptedAt: string | null;
+        };
+        ApiKey: {
+            /** Format: uuid */
+            id: string;
+            name: string;
+            /** @description The visible start of the key (`lpk_<12 characters>`), for recognition */
+            prefix: string;
+            scopes: components["schemas"]["Scope"][];
+            /** Format: date-time */
+            createdAt: string;
+            /** Format: date-time */
+            expiresAt: string | null;
+            /** Format: date-time */
+            revokedAt: string | null;
+            /**
+             * Format: date-time
+             * @description Recorded at most once a minute
+             */
+            lastUsedAt: string | null;
+            /** @enum {string} */
+            status: "active" | "revoked" | "expired";
+        };
+        UsageCounts: {
+            requests: number;
+            lots: number;
+            measurements: number;
+        };
+        UsageReport: {
+            /** Format: date */
+            from: string;
+            /** Format: date */
+            to: string;
+            days: (components["schemas"]["UsageCounts"] & {
+                /** Format: date */
+                day: string;
+                /**
+                 * Format: uuid
+                 * @description null for console sessions
+                 */
+                keyId: string | null;
+                keyName: string;
+                keyPrefix: string | null;
+            })[];
+            totals: components["schemas"]["UsageCounts"];
+        };
+        /** @enum {string} */
+        AuditAction: "key.created" | "key.revoked" | "user.invited" | "invitation.revoked" | "invitation.accepted" | "user.role-changed" | "user.removed" | "user.signed-in" | "user.sign-in-failed" | "user.password-reset-requested" | "user.password-reset" | "organisation.created";
+        AuditEvent: {
+            /** Format: uuid */
+            id: string;
+            /** Format: date-time */
+            at: string;
+            action: components["schemas"]["AuditAction"];
+            actor: {
+                /** @enum {string} */
+                kind: "user" | "api-key" | "operator" | "anonymous";
+                /** Format: uuid */
+                id: string | null;
+                /** @description E-mail of the user, or name and prefix of the key */
+                label: string;
+            };
+            target: {
+                kind: string;
+                /** Format: uuid */
+                id: string;
+            } | null;
+            /** @description Client address as seen by the server */
+            ip: string | null;
+            details: {
+                [key: string]: unknown;
+            };
+        };
+        DevMail: {
+            /** Format: uuid */
+            id: string;
+            /** Format: date-time */
+            receivedAt: string;
+            from: string;
+            to: string[];
+            subject: string;
+            text: string;
+            html: string | null;
+        };
+        /** @enum {string} */
+        Unit: "g" | "kg" | "mg" | "mL" | "cL" | "L" | "oz" | "lb" | "fl oz";
+        /** @enum {string} */
+        Testing: "destructive" | "non-destructive";
+        /**
+         * @description none (net measured), fixed (one tare for every pack), per-pack (paired tares), sample (mean of a sample of empty packaging)
+         * @enum {string}
+         */
+        TareMode: "none" | "fixed" | "per-pack" | "sample";
+        /** @enum {string} */
+        Decision: "conforming" | "nonconforming" | "second-sample-required" | "insufficient-data";
+        RulebookChoice: {
+            /** @enum {string} */
+            id: "eu-76-211" | "oiml-r87-2016" | "custom";
+            /** @description Parameters of the custom rulebook (see GET /v1/rulebooks) */
+            params?: {
+                [key: string]: unknown;
+            };
+        };
+        ProductInput: {
+            /** @description Your SKU code */
+            sku: string;
+            name: string;
+            description?: string;
+            /** @description Nominal quantity Qn printed on the label */
+            nominalQuantity: number;
+            unit: components["schemas"]["Unit"];
+            tareMode: components["schemas"]["TareMode"];
+            /** @description Tare of every pack (tare mode fixed) */
+            fixedTare?: number | null;
+            /** @description Unit of tare values; default the lot's measurement unit */
+            tareUnit?: components["schemas"]["Unit"] | null;
+            /** @description g/mL at 20 °C; needed when the label is by volume and packs are weighed */
+            density?: number | null;
+            rulebook: components["schemas"]["RulebookChoice"];
+            /** @description E-mailed when a lot of this product is nonconforming */
+            alertRecipients?: string[];
+        };
+        ProductPatch: {
+            sku?: string;
+            name?: string;
+            description?: string;
+            nominalQuantity?: number;
+            unit?: components["schemas"]["Unit"];
+            tareMode?: components["schemas"]["TareMode"];
+            fixedTare?: number | null;
+            tareUnit?: components["schemas"]["Unit"] | null;
+            density?: number | null;
+            rulebook?: components["schemas"]["RulebookChoice"];
+            alertRecipients?: string[];
+        };
+        Product: {
+            /** Format: uuid */
+            id: string;
+            sku: string;
+            name: string;
+            description: string;
+            nominalQuantity: number;
+            unit: components["schemas"]["Unit"];
+            tareMode: components["schemas"]["TareMode"];
+            fixedTare: number | null;
+            tareUnit: components["schemas"]["Unit"] | null;
+            density: number | null;
+            rulebook: components["schemas"]["RulebookChoice"];
+            alertRecipients: string[];
+            /** Format: date-time */
+            createdAt: string;
+            /** Format: date-time */
+            updatedAt: string;
+        };
+        ProductPage: {
+            items: components["schemas"]["Product"][];
+            nextCursor: string | null;
+        };
+        /** @description Give the product by `productId` or `sku`. lotCode, lotSize and testing are required except for a second sample, which takes them from the first. */
+        LotSubmission: {
+            /** Format: uuid */
+            productId?: string;
+            sku?: string;
+            lotCode?: string;
+            line?: string;
+            /** Format: date-time */
+            packedAt?: string;
+            /** @description Packs in the lot */
+            lotSize?: number;
+            testing?: components["schemas"]["Testing"];
+            measurementUnit: components["schemas"]["Unit"];
+            /**
+             * @description Default: net when the product's tare mode is none, else gross
+             * @enum {string}
+             */
+            measurementBasis?: "gross" | "net";
+            /** @description One value per pack, in production order (at most 1 000 000) */
+            measurements: number[];
+            /** @description Per-pack tares paired with measurements (tare mode per-pack) */
+            tares?: number[];
+            /** @description Tares of a sample of empty packaging (tare mode sample) */
+            tareSample?: number[];
+            clientReference?: string;
+            /**
+             * Format: uuid
+             * @description The first sample's verdict
+             */
+            firstSampleVerdictId?: string;
+        };
+        /** @description The engine's result with every statistic behind it (see the engine's types) */
+        EngineVerdict: {
+            decision: components["schemas"]["Decision"];
+            secondSample?: {
+                additionalPacks?: number;
+            };
+            criteria: {
+                id: string;
+                observed: number;
+                limit: number;
+                passed: boolean | null;
+                sentence: string;
+            }[];
+            statistics: {
+                descriptive: {
+                    [key: string]: unknown;
+                };
+                meanTest: {
+                    [key: string]: unknown;
+                };
+            };
+            assumptions: {
+                [key: string]: unknown;
+            }[];
+            net: {
+                [key: string]: unknown;
+            };
+            warnings: string[];
+            engineVersion: string;
+            rulebook: {
+                id: string;
+                version: string;
+                title: string;
+                source: string;
+            };
+            caution: string;
+        };
+        /** @description The product spec exactly as the lot was judged with it */
+        ProductSpec: {
+            nominalQuantity: number;
+            unit: components["schemas"]["Unit"];
+            tareMode: components["schemas"]["TareMode"];
+            fixedTare?: number;
+            tareUnit?: components["schemas"]["Unit"];
+            density?: number;
+            rulebook: components["schemas"]["RulebookChoice"];
+        };
+        Seal: {
+            /** @description SHA-256 of the record's RFC 8785 canonical JSON */
+            value: string;
+            /** @enum {string} */
+            algorithm: "SHA-256";
+            /** @enum {string} */
+            canonicalization: "RFC 8785";
+            /** @description Ed25519 signature of the 32 digest bytes */
+            signature: string;
+            /** @enum {string} */
+            signatureAlgorithm: "Ed25519";
+            /** @description Key id in /.well-known/jwks.json (RFC 7638 thumbprint) */
+            kid: string;
+            /** @description Position in your organisation's chain */
+            sequence: number;
+            /** @description Seal of the verdict before this one in the chain */
+            previousSeal: string | null;
+        };
+        Verdict: {
+            /** Format: uuid */
+            id: string;
+            decision: components["schemas"]["Decision"];
+            product: {
+                /** Format: uuid */
+                id: string;
+                sku: string;
+                name: string;
+                spec: components["schemas"]["ProductSpec"];
+            };
+            lot: {
+                lotCode: string;
+                line: string | null;
+                /** Format: date-time */
+                packedAt: string | null;
+                lotSize: number;
+                testing: components["schemas"]["Testing"];
+                measurementUnit: components["schemas"]["Unit"];
+                measurementCount: number;
+                clientReference: string | null;
+                /** @enum {string} */
+                sourceFormat: "json" | "csv";
+            };
+            /** Format: uuid */
+            firstSampleVerdictId: string | null;
+            result: components["schemas"]["EngineVerdict"];
+            /** Format: date-time */
+            recordedAt: string;
+            seal: components["schemas"]["Seal"];
+            caution: string;
+        };
+        VerdictPage: {
+            items: components["schemas"]["Verdict"][];
+            nextCursor: string | null;
+        };
+        /**
+         * @description A verdict record with its seal: `seal` = hex SHA-256 of the RFC 8785 canonical JSON of
+         *     `record`; `signature` = Ed25519 over the 32 digest bytes (base64url), by the key `kid` of
+         *     /.well-known/jwks.json. As exported, the whole document is itself canonical JSON.
+         */
+        SealedDocument: {
+            /** @enum {string} */
+            format: "lotproof.sealed-verdict/1";
+            record: {
+                [key: string]: unknown;
+            };
+            seal: string;
+            signature: string;
+            kid: string;
+        };
+        ChainNeighbour: {
+            /** Format: uuid */
+            verdictId: string;
+            sequence: number;
+            seal: string;
+        } | null;
+        SealLookup: {
+            verdict: components["schemas"]["Verdict"];
+            document: components["schemas"]["SealedDocument"];
+            previous: components["schemas"]["ChainNeighbour"];
+            next: components["schemas"]["ChainNeighbour"];
+        };
+        SealCheck: {
+            /** @description True when the hash matches, the signature is valid and the seal is in your ledger */
+            valid: boolean;
+            hashMatches: boolean;
+            signatureValid: boolean;
+            inLedger: boolean;
+            verdictId?: string | null;
+            sequence?: number | null;
+            computedSeal?: string | null;
+            findings: string[];
+        };
+        LedgerCheck: {
+            intact: boolean;
+            verdictsChecked: number;
+            head: {
+                sequence: number;
+                seal: string;
+            } | null;
+            firstBreak: {
+                sequence: number;
+                verdictId: string;
+                reason: string;
+            } | null;
+        };
+        Recomputation: {
+            /** Format: uuid */
+            verdictId: string;
+            matches: boolean;
+            recordedEngineVersion: string;
+            currentEngineVersion: string;
+            recordedDecision: components["schemas"]["Decision"];
+            recomputedDecision: string | null;
+            /** @description JSON pointers where the results differ (first 20) */
+            differences: string[];
+        };
+        Rulebook: {
+            id: string;
+            version: string;
+            title: string;
+            source: string;
+            provenance: string;
+            parameters: {
+                [key: string]: unknown;
+            }[];
+        };
+        Jwks: {
+            keys: {
+                /** @enum {string} */
+                kty: "OKP";
+                /** @enum {string} */
+                crv: "Ed25519";
+                x: string;
+                kid: string;
+                alg?: string;
+                use?: string;
+            }[];
+        };
+        /** @enum {string} */
+        WebhookEvent: "verdict.created" | "verdict.nonconforming" | "verdict.second-sample-required";
+        WebhookInput: {
+            /** Format: uri */
+            url: string;
+            events: components["schemas"]["WebhookEvent"][];
+            description?: string;
+            enabled?: boolean;
+        };
+        WebhookPatch: {
+            /** Format: uri */
+            url?: string;
+            events?: components["schemas"]["WebhookEvent"][];
+            description?: string;
+            enabled?: boolean;
+        };
+        WebhookEndpoint: {
+            /** Format: uuid */
+            id: string;
+            url: string;
+            events: components["schemas"]["WebhookEvent"][];
+            description: string;
+            enabled: boolean;
+            /** Format: date-time */
+            createdAt: string;
+            /** Format: date-time */
+            updatedAt: string;
+        };
+        WebhookEndpointWithSecret: components["schemas"]["WebhookEndpoint"] & {
+            /** @description Standard Webhooks signing secret (whsec_…); shown only here */
+            secret: string;
+        };
+        WebhookDelivery: {
+            /**
+             * Format: uuid
+             * @description Sent as the webhook-id header
+             */
+            id: string;
+            /** Format: uuid */
+            endpointId: string;
+            /** Format: uuid */
+            verdictId: string | null;
+            eventType: string;
+            /** @enum {string} */
+            status: "pending" | "delivered" | "failed";
+            attempts: number;
+            lastStatusCode?: number | null;
+            /** Format: date-time */
+            createdAt: string;
+            /** Format: date-time */
+            deliveredAt: string | null;
+            attemptLog: {
+                attempt: number;
+                /** Format: date-time */
+                attemptedAt: string;
+                statusCode: number | null;
+                error: string | null;
+                durationMs: number;
+            }[];
+        };
     };
     responses: {
         /** @description Problem details (RFC 9457) */
@@ -117,6 +1194,25 @@ export interface components {
         Cursor: string;
         /** @description Makes a retry safe; a replay returns the first response byte for byte. */
         IdempotencyKey: string;
+        /** @description Required (value `1`) when the call is authenticated by a console session; API keys do not need it. */
+        ConsoleHeader: "1";
+        UserId: string;
+        KeyId: string;
+        ProductId: string;
+        VerdictId: string;
+        WebhookId: string;
+        /** @description Only verdicts of this product */
+        FilterProductId: string;
+        /** @description Only lots from this packing line */
+        FilterLine: string;
+        /** @description Only verdicts with this decision */
+        FilterDecision: components["schemas"]["Decision"];
+        /** @description Only lots with this lot code */
+        FilterLotCode: string;
+        /** @description Only verdicts recorded at or after this time */
+        FilterFrom: string;
+        /** @description Only verdicts recorded before this time */
+        FilterTo: string;
     };
     requestBodies: never;
     headers: never;
@@ -181,6 +1277,1212 @@ export interface operations {
                 };
                 content: {
                     "application/json": components["schemas"]["Caller"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    getSession: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The current session */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["SessionInfo"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    signIn: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                /**
+                 * @example {
+                 *       "email": "quality@fernhill.example",
+                 *       "password": "correct horse battery"
+                 *     }
+                 */
+                "application/json": components["schemas"]["SignInRequest"];
+            };
+        };
+        responses: {
+            /** @description Signed in; the session cookie is set */
+            201: {
+                headers: {
+                    /** @description `lotproof_session=…; HttpOnly; SameSite=Strict; Path=/` (and `Secure` on https) */
+                    "Set-Cookie"?: string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["SessionInfo"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    signOut: {
+        parameters: {
+            query?: never;
+            header?: {
+                /** @description Required (value `1`) when the call is authenticated by a console session; API keys do not need it. */
+                "X-Lotproof-Console"?: components["parameters"]["ConsoleHeader"];
+            };
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Signed out; the cookie is cleared */
+            204: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content?: never;
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    listUsers: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Users, newest first */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": {
+                        items: components["schemas"]["ConsoleUser"][];
+                    };
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    removeUser: {
+        parameters: {
+            query?: never;
+            header?: {
+                /** @description Required (value `1`) when the call is authenticated by a console session; API keys do not need it. */
+                "X-Lotproof-Console"?: components["parameters"]["ConsoleHeader"];
+            };
+            path: {
+                userId: components["parameters"]["UserId"];
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Removed */
+            204: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content?: never;
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    changeUserRole: {
+        parameters: {
+            query?: never;
+            header?: {
+                /** @description Required (value `1`) when the call is authenticated by a console session; API keys do not need it. */
+                "X-Lotproof-Console"?: components["parameters"]["ConsoleHeader"];
+            };
+            path: {
+                userId: components["parameters"]["UserId"];
+            };
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                /**
+                 * @example {
+                 *       "role": "auditor"
+                 *     }
+                 */
+                "application/json": {
+                    role: components["schemas"]["Role"];
+                };
+            };
+        };
+        responses: {
+            /** @description The user with the new role */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["ConsoleUser"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    listInvitations: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Invitations */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": {
+                        items: components["schemas"]["Invitation"][];
+                    };
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    createInvitation: {
+        parameters: {
+            query?: never;
+            header?: {
+                /** @description Required (value `1`) when the call is authenticated by a console session; API keys do not need it. */
+                "X-Lotproof-Console"?: components["parameters"]["ConsoleHeader"];
+            };
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                /**
+                 * @example {
+                 *       "email": "line-lead@fernhill.example",
+                 *       "role": "quality"
+                 *     }
+                 */
+                "application/json": {
+                    /** Format: email */
+                    email: string;
+                    role: components["schemas"]["Role"];
+                };
+            };
+        };
+        responses: {
+            /** @description Invitation sent */
+            201: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Invitation"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    revokeInvitation: {
+        parameters: {
+            query?: never;
+            header?: {
+                /** @description Required (value `1`) when the call is authenticated by a console session; API keys do not need it. */
+                "X-Lotproof-Console"?: components["parameters"]["ConsoleHeader"];
+            };
+            path: {
+                invitationId: string;
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The invitation, now revoked */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Invitation"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    inspectInvitation: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                /**
+                 * @example {
+                 *       "token": "Y2hhbmdlLW1lLXRoaXMtaXMtbm90LWEtcmVhbC10b2tlbg"
+                 *     }
+                 */
+                "application/json": components["schemas"]["TokenRequest"];
+            };
+        };
+        responses: {
+            /** @description The invitation behind the link */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": {
+                        email: string;
+                        role: components["schemas"]["Role"];
+                        organisation: {
+                            name: string;
+                        };
+                        /** Format: date-time */
+                        expiresAt: string;
+                    };
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    acceptInvitation: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                /**
+                 * @example {
+                 *       "token": "Y2hhbmdlLW1lLXRoaXMtaXMtbm90LWEtcmVhbC10b2tlbg",
+                 *       "password": "a long passphrase of my own",
+                 *       "name": "Rowan Ashby"
+                 *     }
+                 */
+                "application/json": {
+                    token: string;
+                    password: components["schemas"]["NewPassword"];
+                    name?: string;
+                };
+            };
+        };
+        responses: {
+            /** @description The new account */
+            201: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["ConsoleUser"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    requestPasswordReset: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                /**
+                 * @example {
+                 *       "email": "quality@fernhill.example"
+                 *     }
+                 */
+                "application/json": {
+                    /** Format: email */
+                    email: string;
+                };
+            };
+        };
+        responses: {
+            /** @description If the address has an account, a link is on its way */
+            202: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content?: never;
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    completePasswordReset: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                /**
+                 * @example {
+                 *       "token": "Y2hhbmdlLW1lLXRoaXMtaXMtbm90LWEtcmVhbC10b2tlbg",
+                 *       "password": "a long passphrase of my own"
+                 *     }
+                 */
+                "application/json": {
+                    token: string;
+                    password: components["schemas"]["NewPassword"];
+                };
+            };
+        };
+        responses: {
+            /** @description Password changed; sign in with it */
+            204: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content?: never;
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    listApiKeys: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Keys, newest first, including revoked and expired ones */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": {
+                        items: components["schemas"]["ApiKey"][];
+                    };
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    createApiKey: {
+        parameters: {
+            query?: never;
+            header?: {
+                /** @description Required (value `1`) when the call is authenticated by a console session; API keys do not need it. */
+                "X-Lotproof-Console"?: components["parameters"]["ConsoleHeader"];
+            };
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                /**
+                 * @example {
+                 *       "name": "Line 3 checkweigher gateway",
+                 *       "scopes": [
+                 *         "lots:submit",
+                 *         "verdicts:read"
+                 *       ],
+                 *       "expiresAt": "2030-01-01T00:00:00Z"
+                 *     }
+                 */
+                "application/json": {
+                    name: string;
+                    scopes: components["schemas"]["Scope"][];
+                    /**
+                     * Format: date-time
+                     * @description Optional; the key stops working at this instant.
+                     */
+                    expiresAt?: string | null;
+                };
+            };
+        };
+        responses: {
+            /** @description The key and, once, its secret */
+            201: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": {
+                        key: components["schemas"]["ApiKey"];
+                        /** @description The full key, `lpk_<prefix>_<secret>`; send it as `Authorization: Bearer …`. */
+                        secret: string;
+                    };
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    getApiKey: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                keyId: components["parameters"]["KeyId"];
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The key */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["ApiKey"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    revokeApiKey: {
+        parameters: {
+            query?: never;
+            header?: {
+                /** @description Required (value `1`) when the call is authenticated by a console session; API keys do not need it. */
+                "X-Lotproof-Console"?: components["parameters"]["ConsoleHeader"];
+            };
+            path: {
+                keyId: components["parameters"]["KeyId"];
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The key, now revoked (revoking twice is harmless) */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["ApiKey"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    getUsage: {
+        parameters: {
+            query?: {
+                /** @description Only this key */
+                keyId?: string;
+                /** @description First UTC day, inclusive (YYYY-MM-DD) */
+                from?: string;
+                /** @description Last UTC day, inclusive (YYYY-MM-DD) */
+                to?: string;
+            };
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Usage */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["UsageReport"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    listAuditEvents: {
+        parameters: {
+            query?: {
+                /** @description Page size */
+                limit?: components["parameters"]["Limit"];
+                /** @description Opaque cursor from the previous page's `nextCursor` */
+                cursor?: components["parameters"]["Cursor"];
+                /** @description Only this kind of event */
+                action?: components["schemas"]["AuditAction"];
+            };
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description A page of events */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": {
+                        items: components["schemas"]["AuditEvent"][];
+                        nextCursor: string | null;
+                    };
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    getDevMailbox: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Captured messages, newest first */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": {
+                        items: components["schemas"]["DevMail"][];
+                    };
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    getJwks: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The JWK Set */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Jwks"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    listRulebooks: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Rulebooks */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": {
+                        items: components["schemas"]["Rulebook"][];
+                    };
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    listProducts: {
+        parameters: {
+            query?: {
+                /** @description Page size */
+                limit?: components["parameters"]["Limit"];
+                /** @description Opaque cursor from the previous page's `nextCursor` */
+                cursor?: components["parameters"]["Cursor"];
+                /** @description Only the product with this SKU code */
+                sku?: string;
+            };
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description A page of products */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["ProductPage"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    createProduct: {
+        parameters: {
+            query?: never;
+            header?: {
+                /** @description Makes a retry safe; a replay returns the first response byte for byte. */
+                "Idempotency-Key"?: components["parameters"]["IdempotencyKey"];
+            };
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["ProductInput"];
+            };
+        };
+        responses: {
+            /** @description The product */
+            201: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Product"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    getProduct: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                productId: components["parameters"]["ProductId"];
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The product */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Product"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    archiveProduct: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                productId: components["parameters"]["ProductId"];
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Archived */
+            204: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content?: never;
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    updateProduct: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                productId: components["parameters"]["ProductId"];
+            };
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["ProductPatch"];
+            };
+        };
+        responses: {
+            /** @description The product as changed */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Product"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    submitLot: {
+        parameters: {
+            query?: {
+                /** @description (text/csv) Header of the measurement column */
+                column?: string;
+                /** @description (text/csv) Header of the per-pack tare column (tare mode per-pack) */
+                tareColumn?: string;
+                /** @description (text/csv) The product, by id */
+                productId?: string;
+                /** @description (text/csv) The product, by SKU code */
+                sku?: string;
+                /** @description (text/csv) Lot code */
+                lotCode?: string;
+                /** @description (text/csv) Packing line */
+                line?: string;
+                /** @description (text/csv) When the lot was packed */
+                packedAt?: string;
+                /** @description (text/csv) Packs in the lot */
+                lotSize?: number;
+                /** @description (text/csv) destructive or non-destructive */
+                testing?: components["schemas"]["Testing"];
+                /** @description (text/csv) Unit of the measurements */
+                measurementUnit?: components["schemas"]["Unit"];
+                /** @description (text/csv) gross or net */
+                measurementBasis?: "gross" | "net";
+                /** @description (text/csv) Your own reference (e.g. the MES batch id) */
+                clientReference?: string;
+                /** @description (text/csv) The first sample's verdict, when this is a second sample */
+                firstSampleVerdictId?: string;
+            };
+            header?: {
+                /** @description Makes a retry safe; a replay returns the first response byte for byte. */
+                "Idempotency-Key"?: components["parameters"]["IdempotencyKey"];
+            };
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["LotSubmission"];
+                "text/csv": string;
+            };
+        };
+        responses: {
+            /** @description The sealed verdict */
+            201: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Verdict"];
+                };
+            };
+            413: components["responses"]["Problem"];
+            422: components["responses"]["Problem"];
+            default: components["responses"]["Problem"];
+        };
+    };
+    listVerdicts: {
+        parameters: {
+            query?: {
+                /** @description Page size */
+                limit?: components["parameters"]["Limit"];
+                /** @description Opaque cursor from the previous page's `nextCursor` */
+                cursor?: components["parameters"]["Cursor"];
+                /** @description Only verdicts of this product */
+                productId?: components["parameters"]["FilterProductId"];
+                /** @description Only lots from this packing line */
+                line?: components["parameters"]["FilterLine"];
+                /** @description Only verdicts with this decision */
+                decision?: components["parameters"]["FilterDecision"];
+                /** @description Only lots with this lot code */
+                lotCode?: components["parameters"]["FilterLotCode"];
+                /** @description Only verdicts recorded at or after this time */
+                from?: components["parameters"]["FilterFrom"];
+                /** @description Only verdicts recorded before this time */
+                to?: components["parameters"]["FilterTo"];
+            };
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description A page of verdicts */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["VerdictPage"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    getVerdict: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                verdictId: components["parameters"]["VerdictId"];
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The verdict */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Verdict"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    exportVerdict: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                verdictId: components["parameters"]["VerdictId"];
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The sealed document, itself RFC 8785 canonical JSON */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["SealedDocument"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    recomputeVerdict: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                verdictId: components["parameters"]["VerdictId"];
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The comparison */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Recomputation"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    getSeal: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                /** @description The verdict's seal (SHA-256, 64 hex digits) */
+                seal: string;
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The sealed record */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["SealLookup"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    verifySeal: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["SealedDocument"];
+            };
+        };
+        responses: {
+            /** @description The findings (valid or not) */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["SealCheck"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    verifyLedger: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The result of the walk */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["LedgerCheck"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    exportVerdicts: {
+        parameters: {
+            query: {
+                format: "csv" | "ndjson";
+                /** @description Only verdicts of this product */
+                productId?: components["parameters"]["FilterProductId"];
+                /** @description Only lots from this packing line */
+                line?: components["parameters"]["FilterLine"];
+                /** @description Only verdicts with this decision */
+                decision?: components["parameters"]["FilterDecision"];
+                /** @description Only lots with this lot code */
+                lotCode?: components["parameters"]["FilterLotCode"];
+                /** @description Only verdicts recorded at or after this time */
+                from?: components["parameters"]["FilterFrom"];
+                /** @description Only verdicts recorded before this time */
+                to?: components["parameters"]["FilterTo"];
+            };
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The export */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "text/csv": string;
+                    "application/x-ndjson": string;
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    listWebhooks: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Endpoints */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": {
+                        items: components["schemas"]["WebhookEndpoint"][];
+                    };
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    createWebhook: {
+        parameters: {
+            query?: never;
+            header?: {
+                /** @description Makes a retry safe; a replay returns the first response byte for byte. */
+                "Idempotency-Key"?: components["parameters"]["IdempotencyKey"];
+            };
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["WebhookInput"];
+            };
+        };
+        responses: {
+            /** @description The endpoint with its secret */
+            201: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["WebhookEndpointWithSecret"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    getWebhook: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                webhookId: components["parameters"]["WebhookId"];
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The endpoint */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["WebhookEndpoint"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    deleteWebhook: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                webhookId: components["parameters"]["WebhookId"];
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Removed */
+            204: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content?: never;
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    updateWebhook: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                webhookId: components["parameters"]["WebhookId"];
+            };
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["WebhookPatch"];
+            };
+        };
+        responses: {
+            /** @description The endpoint */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["WebhookEndpoint"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    sendTestWebhook: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                webhookId: components["parameters"]["WebhookId"];
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Queued; follow it in the delivery log */
+            202: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["WebhookDelivery"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    listWebhookDeliveries: {
+        parameters: {
+            query?: {
+                /** @description Page size */
+                limit?: components["parameters"]["Limit"];
+                /** @description Opaque cursor from the previous page's `nextCursor` */
+                cursor?: components["parameters"]["Cursor"];
+            };
+            header?: never;
+            path: {
+                webhookId: components["parameters"]["WebhookId"];
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description A page of deliveries */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": {
+                        items: components["schemas"]["WebhookDelivery"][];
+                        nextCursor: string | null;
+                    };
                 };
             };
             default: components["responses"]["Problem"];

@@ -1,0 +1,49 @@
+// Idempotency-Key for POSTs that create something other than a lot (lots are keyed inside the
+// ledger transaction): the first reply is stored and replayed byte for byte; the same key with
+// another body is a 422.
+import { createHash } from 'node:crypto';
+import { QueryTypes, type Sequelize } from 'sequelize';
+import { UnprocessableProblem } from '../http/problem';
+
+export interface StoredReply {
+  status: number;
+  body: string;
+  replayed: boolean;
+}
+
+export async function idempotent(
+  sequelize: Sequelize,
+  organisationId: string,
+  operation: string,
+  key: string | null,
+  body: unknown,
+  create: () => Promise<{ status: number; value: unknown; resourceId?: string }>,
+): Promise<StoredReply> {
+  if (!key) {
+    const r = await create();
+    return { status: r.status, body: JSON.stringify(r.value), replayed: false };
+  }
+  const hash = createHash('sha256').update(JSON.stringify(body ?? null)).digest('hex');
+  const find = async () =>
+    (
+      await sequelize.query<{ request_hash: string; status: number; response: string }>(
+        'SELECT request_hash, status, response FROM idempotency_records WHERE organisation_id = $1 AND operation = $2 AND key = $3',
+        { bind: [organisationId, operation, key], type: QueryTypes.SELECT },
+      )
+    )[0];
+  const prior = await find();
+  if (prior) {
+    if (prior.request_hash !== hash) {
+      throw new UnprocessableProblem('This Idempotency-Key was already used with a different request body.', 'idempotency-key-reused');
+    }
+    return { status: prior.status, body: prior.response, replayed: true };
+  }
+  const r = await create();
+  const text = JSON.stringify(r.value);
+  await sequelize.query(
+    `INSERT INTO idempotency_records (organisation_id, operation, key, request_hash, status, response, resource_id)
+     VALUES ($1, $2, $3, $4, $5, $6, $7) ON CONFLICT DO NOTHING`,
+    { bind: [organisationId, operation, key, hash, r.status, text, r.resourceId ?? null] },
+  );
+  return { status: r.status, body: text, replayed: false };
+}
