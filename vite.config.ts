@@ -2,11 +2,12 @@
 import { defineConfig } from 'vitest/config';
 import vue from '@vitejs/plugin-vue';
 import tailwindcss from '@tailwindcss/vite';
+import { formSchemasPlugin } from './console/build/validators';
 
 const apiTarget = `http://${process.env.HOST ?? '127.0.0.1'}:${process.env.PORT ?? '4780'}`;
 
 export default defineConfig({
-  plugins: [vue(), tailwindcss()],
+  plugins: [vue(), tailwindcss(), formSchemasPlugin()],
   publicDir: 'console/public',
   build: { outDir: 'dist/console', emptyOutDir: true },
   server: {
@@ -38,7 +39,7 @@ export default defineConfig({
         },
       },
       {
-        plugins: [vue()],
+        plugins: [vue(), formSchemasPlugin()],
         test: {
           name: 'console',
           include: ['tests/console/**/*.test.ts'],

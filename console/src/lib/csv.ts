@@ -10,6 +10,8 @@ export interface ParsedMeasurements {
   tares: number[] | null;
   /** Name of the column read (or "column 1"). */
   column: string;
+  /** Whether the first row was a header (so file rows are measurement index + 2). */
+  hasHeader: boolean;
   /** Problems, each naming the file's row (1-based, counting the header) so the user can find it. */
   problems: string[];
 }
@@ -30,7 +32,7 @@ export function parseMeasurementsCsv(text: string): ParsedMeasurements {
   const rows = result.data;
   const problems: string[] = [];
   const decimalComma = result.meta.delimiter === ';' || result.meta.delimiter === '\t';
-  if (rows.length === 0) return { measurements: [], tares: null, column: 'column 1', problems: ['The file is empty.'] };
+  if (rows.length === 0) return { measurements: [], tares: null, column: 'column 1', hasHeader: false, problems: ['The file is empty.'] };
 
   const header = rows[0]!.map((h) => h.trim().toLowerCase());
   const headerIsText = header.some((h) => h !== '' && Number.isNaN(Number(h.replace(',', '.'))));
@@ -49,6 +51,7 @@ export function parseMeasurementsCsv(text: string): ParsedMeasurements {
           measurements: [],
           tares: null,
           column: '',
+          hasHeader: true,
           problems: [`No measurement column: the header names ${header.map((h) => `"${h}"`).join(', ')}; name one column measurement, gross, net or weight.`],
         };
       }
@@ -78,10 +81,5 @@ export function parseMeasurementsCsv(text: string): ParsedMeasurements {
     }
   }
   if (measurements.length === 0 && problems.length === 0) problems.push('The file has a header but no measurements.');
-  return { measurements, tares: tareCol >= 0 ? tares : null, column, problems };
-}
-
-/** A file row (1-based, with the header) for an index into the measurements, for messages. */
-export function rowOf(index: number, hasHeader: boolean): number {
-  return index + 1 + (hasHeader ? 1 : 0);
+  return { measurements, tares: tareCol >= 0 ? tares : null, column, hasHeader: headerIsText, problems };
 }

@@ -1,0 +1,23 @@
+// Submitting a lot by hand: the JSON body of submitLot, sent with XMLHttpRequest so the page can
+// show how much of a large lot has gone up. One idempotency key per submission, so a retry after
+// a lost reply returns the same sealed verdict instead of sealing the lot twice.
+import { defineStore } from 'pinia';
+import { upload } from '../api/upload';
+import { idempotencyKey } from '../api/client';
+import type { components } from '../../../shared/api/schema';
+
+export type LotSubmission = components['schemas']['LotSubmission'];
+type Verdict = components['schemas']['Verdict'];
+
+export const useLotsStore = defineStore('lots', () => {
+  async function submit(body: LotSubmission, key: string, onProgress: (fraction: number) => void): Promise<Verdict> {
+    return upload<Verdict>({
+      url: '/v1/lots',
+      body: JSON.stringify(body),
+      contentType: 'application/json',
+      headers: { 'Idempotency-Key': key },
+      onProgress,
+    });
+  }
+  return { submit, newKey: idempotencyKey };
+});
