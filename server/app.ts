@@ -104,7 +104,9 @@ export function createApp(ctx: AppContext): Express {
   app.use(
     OpenApiValidator.middleware({
       apiSpec: doc as any,
-      validateRequests: { allowUnknownQueryParameters: false, coerceTypes: true },
+      // Bodies are never coerced (a null or "true" measurement must be refused, not read as 0 or 1);
+      // query and path parameters are always coerced by the validator.
+      validateRequests: { allowUnknownQueryParameters: false, coerceTypes: false },
       validateResponses: ctx.config.validateResponses,
       validateSecurity: false,
       validateFormats: true,

@@ -6,6 +6,8 @@ import type { Config } from './config';
 import { openDatabase, type Database } from './db/database';
 import { migrate } from './db/migrate';
 import type { AppContext } from './http/context';
+import { startJobs, type RunningJobs } from './jobs';
+import { currentSigningKey, publishSigningKey } from './services/signing-keys';
 
 export interface RunningServer {
   url: string;
@@ -19,7 +21,10 @@ export async function startServer(config: Config & { databaseUrl: string }, logg
   const db: Database = openDatabase(config.databaseUrl, logger);
   await migrate(db.sequelize, (m) => logger.debug(m));
   const ctx: AppContext = { config, db, logger };
+  // The seal signing key: read (or created) now, so a bad LOTPROOF_SIGNING_KEY stops the start.
+  await publishSigningKey(db.sequelize, currentSigningKey(config));
   const app = createApp(ctx);
+  const jobs: RunningJobs | null = config.verdicts.runJobs ? await startJobs(ctx) : null;
   const server = await new Promise<Server>((resolve, reject) => {
     const s = app.listen(config.port, config.host, () => resolve(s));
     s.once('error', reject);
@@ -40,6 +45,7 @@ export async function startServer(config: Config & { databaseUrl: string }, logg
           // Requests still running after 10 s are cut off rather than holding the shutdown forever.
           setTimeout(() => server.closeAllConnections(), 10_000).unref();
         });
+        await jobs?.stop();
         await db.close();
       })()),
   };

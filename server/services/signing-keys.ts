@@ -119,8 +119,12 @@ export function signSeal(key: SigningKey, sealHex: string): string {
 }
 
 export function verifySealSignature(publicKey: KeyObject, sealHex: string, signature: string): boolean {
+  // Strict encodings: text that decodes to the same bytes but is not their canonical spelling is refused.
+  if (!/^[0-9a-f]{64}$/.test(sealHex) || !/^[A-Za-z0-9_-]+$/.test(signature)) return false;
+  const sig = Buffer.from(signature, 'base64url');
+  if (sig.toString('base64url') !== signature) return false;
   try {
-    return verify(null, Buffer.from(sealHex, 'hex'), publicKey, Buffer.from(signature, 'base64url'));
+    return verify(null, Buffer.from(sealHex, 'hex'), publicKey, sig);
   } catch {
     return false;
   }
