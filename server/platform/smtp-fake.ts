@@ -91,7 +91,8 @@ function leaves(part: Part): Part[] {
   const out: Part[] = [];
   for (const chunk of chunks) {
     if (chunk.startsWith('--')) break;
-    out.push(...leaves(splitPart(chunk.replace(/^\r?\n/, ''))));
+    // the line break before a boundary belongs to the boundary (RFC 2046 §5.1.1)
+    out.push(...leaves(splitPart(chunk.replace(/^\r?\n/, '').replace(/\r?\n$/, ''))));
   }
   return out;
 }
