@@ -12,6 +12,7 @@ import { startServer } from '../server';
 import { CONSOLE_DIST } from '../app';
 import { seedDemo } from '../demo/seed';
 import '../demo/users';
+import '../demo/lots';
 import { startSmtpFake, type RunningSmtpFake } from '../platform/smtp-fake';
 
 async function buildConsoleIfMissing(): Promise<void> {
