@@ -5,11 +5,13 @@ import { buildTestApp, createTestKey, createTestOrganisation, type TestApp } fro
 
 let t: TestApp;
 let key: string;
+let submitKey: string;
 
 beforeAll(async () => {
   t = buildTestApp({ bodyLimitBytes: 64 * 1024 });
   const org = await createTestOrganisation();
   key = await createTestKey(org.id, ['verdicts:read']);
+  submitKey = await createTestKey(org.id, ['lots:submit']);
 });
 afterAll(() => t.close());
 
@@ -52,6 +54,16 @@ describe('client errors are problem details, never 5xx', () => {
     const res = await request(t.app).post('/v1/me').set('Content-Type', 'application/json').send('{"lotCode": ');
     expectProblem(res, 400);
     expect(res.body.detail).toMatch(/not valid JSON/);
+  });
+
+  it('a body of a content type the operation does not take is a 415 problem', async () => {
+    const res = await request(t.app)
+      .post('/v1/lots')
+      .set('Authorization', `Bearer ${submitKey}`)
+      .set('Content-Type', 'application/xml')
+      .send('<lot><measurement>500.1</measurement></lot>');
+    expectProblem(res, 415);
+    expect(res.body.detail).toMatch(/application\/xml|media type/i);
   });
 
   it('an oversized body is a 413 problem naming the limit', async () => {
