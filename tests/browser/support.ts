@@ -9,7 +9,8 @@ import { join } from 'node:path';
 import { chromium, type BrowserContext, type Page } from 'playwright-core';
 import { buildTestApp, createTestOrganisation, type TestApp } from '../support/app';
 import { createUser } from '../../server/services/users';
-import type { Role } from '../../server/services/principal';
+import type { Principal, Role } from '../../server/services/principal';
+import { createProduct, type ProductInput } from '../../server/services/products';
 
 export const SCREENSHOTS = join(process.cwd(), 'tests', 'artifacts', 'screenshots');
 export const PASSWORD = 'correct horse battery staple';
@@ -62,6 +63,11 @@ export async function startHarness(label: string): Promise<Harness> {
       contexts.push(context);
       const page = context.pages()[0] ?? (await context.newPage());
       page.setDefaultTimeout(15_000);
+      // Uncaught errors in the console surface in the test output.
+      page.on('pageerror', (err) => console.error(`[browser] ${err.message}`));
+      page.on('console', (msg) => {
+        if (msg.type() === 'error') console.error(`[browser console] ${msg.text()}`);
+      });
       return { page, context };
     },
     async close() {
@@ -88,4 +94,37 @@ export async function screenshot(page: Page, name: string): Promise<void> {
 /** Names of the navigation items the page shows, in order. */
 export async function navigationNames(page: Page): Promise<string[]> {
   return page.locator('[data-nav-item]').evaluateAll((els) => els.map((e) => e.getAttribute('data-nav-item') ?? ''));
+}
+
+/** A product of the harness's organisation, created through the service the API uses. */
+export async function seedProduct(h: Harness, input: Partial<ProductInput> = {}): Promise<{ id: string; sku: string; name: string }> {
+  const principal: Principal = { organisationId: h.organisationId, kind: 'session', scopes: [], role: 'quality' };
+  const sku = input.sku ?? `BRW-${Math.random().toString(36).slice(2, 8).toUpperCase()}`;
+  return createProduct(principal, {
+    sku,
+    name: input.name ?? `Rolled oats 500 g (${sku})`,
+    nominalQuantity: 500,
+    unit: 'g',
+    tareMode: 'fixed',
+    fixedTare: 14,
+    rulebook: { id: 'eu-76-211' },
+    ...input,
+  });
+}
+
+/**
+ * Gross weights of an invented lot (a seeded linear congruential generator, Park & Miller 1988,
+ * "Random number generators: good ones are hard to find", CACM 31:1192): net around `mean` g
+ * plus the 14 g tare, as a CSV with a header, in production order.
+ */
+export function demoCsv(n = 60, mean = 503, seed = 20240611): string {
+  let state = seed;
+  const uniform = () => (state = (state * 48271) % 2147483647) / 2147483647;
+  const rows = ['pack,gross_g,operator'];
+  for (let i = 0; i < n; i++) {
+    // Sum of four uniforms: a bell-shaped spread of about ±3 g.
+    const noise = (uniform() + uniform() + uniform() + uniform() - 2) * 2.6;
+    rows.push(`${i + 1},${(mean + 14 + noise).toFixed(1)},demo`);
+  }
+  return `${rows.join('\n')}\n`;
 }

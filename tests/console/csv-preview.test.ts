@@ -70,3 +70,14 @@ describe('previewLot', () => {
     expect(preview).toEqual({ ok: false, message: 'Row 3: "-" is not a number.', pointer: null });
   });
 });
+
+describe('parseMeasurementsCsv column choice', () => {
+  it('recognises a measurement column with a unit suffix', () => {
+    expect(parseMeasurementsCsv('pack,gross_g\n1,514.2\n2,515.0').column).toBe('gross_g');
+  });
+  it('reads the column the user chose instead of the one found by name', () => {
+    const parsed = parseMeasurementsCsv('net,check\n500,1\n501,2', { column: 'check' });
+    expect(parsed.measurements).toEqual([1, 2]);
+    expect(parsed.headers).toEqual(['net', 'check']);
+  });
+});

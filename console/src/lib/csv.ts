@@ -10,6 +10,8 @@ export interface ParsedMeasurements {
   tares: number[] | null;
   /** Name of the column read (or "column 1"). */
   column: string;
+  /** Column names of the header row (empty without one), for choosing another column. */
+  headers: string[];
   /** Whether the first row was a header (so file rows are measurement index + 2). */
   hasHeader: boolean;
   /** Problems, each naming the file's row (1-based, counting the header) so the user can find it. */
@@ -27,12 +29,17 @@ function toNumber(raw: string, decimalComma: boolean): number | null {
   return Number(s);
 }
 
-export function parseMeasurementsCsv(text: string): ParsedMeasurements {
+/** A header names a measurement column when it is one of the names, alone or with a unit suffix (gross_g, "net (g)"). */
+function isNamed(header: string, names: readonly string[]): boolean {
+  return names.some((n) => header === n || new RegExp(`^${n}[ _(\\[-]`).test(header));
+}
+
+export function parseMeasurementsCsv(text: string, opts: { column?: string } = {}): ParsedMeasurements {
   const result = Papa.parse<string[]>(text.replace(/^\uFEFF/, ''), { skipEmptyLines: 'greedy', delimitersToGuess: [',', ';', '\t', '|'] });
   const rows = result.data;
   const problems: string[] = [];
   const decimalComma = result.meta.delimiter === ';' || result.meta.delimiter === '\t';
-  if (rows.length === 0) return { measurements: [], tares: null, column: 'column 1', hasHeader: false, problems: ['The file is empty.'] };
+  if (rows.length === 0) return { measurements: [], tares: null, column: 'column 1', hasHeader: false, headers: [], problems: ['The file is empty.'] };
 
   const header = rows[0]!.map((h) => h.trim().toLowerCase());
   const headerIsText = header.some((h) => h !== '' && Number.isNaN(Number(h.replace(',', '.'))));
@@ -42,8 +49,9 @@ export function parseMeasurementsCsv(text: string): ParsedMeasurements {
   let start = 0;
   if (headerIsText) {
     start = 1;
-    valueCol = header.findIndex((h) => MEASUREMENT_NAMES.includes(h));
-    tareCol = header.findIndex((h) => TARE_NAMES.includes(h));
+    const chosen = opts.column ? header.indexOf(opts.column.trim().toLowerCase()) : -1;
+    valueCol = chosen >= 0 ? chosen : header.findIndex((h) => isNamed(h, MEASUREMENT_NAMES));
+    tareCol = header.findIndex((h, i) => i !== valueCol && isNamed(h, TARE_NAMES));
     if (valueCol < 0) {
       if (header.length === 1) valueCol = 0;
       else {
@@ -52,7 +60,8 @@ export function parseMeasurementsCsv(text: string): ParsedMeasurements {
           tares: null,
           column: '',
           hasHeader: true,
-          problems: [`No measurement column: the header names ${header.map((h) => `"${h}"`).join(', ')}; name one column measurement, gross, net or weight.`],
+          headers: rows[0]!.map((h) => h.trim()),
+          problems: [`No measurement column: the header names ${header.map((h) => `"${h}"`).join(', ')}; choose the column below, or name it measurement, gross, net or weight.`],
         };
       }
     }
@@ -81,5 +90,5 @@ export function parseMeasurementsCsv(text: string): ParsedMeasurements {
     }
   }
   if (measurements.length === 0 && problems.length === 0) problems.push('The file has a header but no measurements.');
-  return { measurements, tares: tareCol >= 0 ? tares : null, column, hasHeader: headerIsText, problems };
+  return { measurements, tares: tareCol >= 0 ? tares : null, column, hasHeader: headerIsText, headers: headerIsText ? rows[0]!.map((h) => h.trim()) : [], problems };
 }
