@@ -93,7 +93,7 @@ export function identityHandlers(ctx: AppContext): Handlers {
       res.status(201).json(await acceptInvitation({ token: req.body.token, password: req.body.password, name: req.body.name, ip: ip(req) }));
     },
     requestPasswordReset: async (req, res) => {
-      await requestPasswordReset({ email: req.body.email, ip: ip(req) }, { publicUrl: config.publicUrl, ttlMinutes: config.sessions.passwordResetTtlMinutes });
+      await requestPasswordReset({ email: req.body.email, ip: ip(req) }, { publicUrl: config.publicUrl, ttlMinutes: config.sessions.passwordResetTtlMinutes, limits });
       res.status(202).end();
     },
     completePasswordReset: async (req, res) => {

@@ -5,6 +5,7 @@ import { Invitation, Organisation, PasswordReset, User } from '../models';
 import { ConflictProblem, NotFoundProblem, UnavailableProblem, UnprocessableProblem } from '../http/problem';
 import { recordAudit, type Actor } from './audit-trail';
 import { sendMail } from './mailer';
+import type { RateLimits } from './rate-limits';
 import type { Principal, Role } from './principal';
 import { hashPassword, hashToken, newToken, TOKEN_PATTERN } from './secrets';
 import { revokeUserSessions } from './sessions';
@@ -162,10 +163,14 @@ export async function acceptInvitation(input: { token: string; password: string;
 }
 
 /** Sends a reset link when the address belongs to an account; says nothing either way. */
-export async function requestPasswordReset(input: { email: string; ip: string | null }, opts: { publicUrl: string; ttlMinutes: number }): Promise<void> {
+export async function requestPasswordReset(
+  input: { email: string; ip: string | null },
+  opts: { publicUrl: string; ttlMinutes: number; limits: Pick<RateLimits, 'allowPasswordResetMail'> },
+): Promise<void> {
   const email = normaliseEmail(input.email);
   const user = await User.findOne({ where: { email, removedAt: null } });
   if (!user) return;
+  if (!(await opts.limits.allowPasswordResetMail(email))) return;
   const token = newToken();
   const reset = await PasswordReset.create({ userId: user.id, tokenHash: hashToken(token), expiresAt: new Date(Date.now() + opts.ttlMinutes * 60_000) });
   try {

@@ -9,6 +9,8 @@ import type { Principal } from './principal';
 
 const TABLE = 'rate_limits';
 const SIGN_IN_WINDOW_SECONDS = 15 * 60;
+/** Reset links per account per hour: enough for a lost e-mail, too few to flood an inbox. */
+const RESET_MAILS_PER_HOUR = 5;
 
 export interface LimitState {
   limit: number;
@@ -46,6 +48,8 @@ export interface RateLimits {
   assertSignInAllowed(email: string, ip: string): Promise<void>;
   signInFailed(email: string, ip: string): Promise<void>;
   signInSucceeded(email: string): Promise<void>;
+  /** False once an account has been sent too many reset links this hour (the caller then sends none). */
+  allowPasswordResetMail(email: string): Promise<boolean>;
 }
 
 export function createRateLimits(sequelize: Sequelize, cfg: RateLimitConfig): RateLimits {
@@ -54,6 +58,7 @@ export function createRateLimits(sequelize: Sequelize, cfg: RateLimitConfig): Ra
   const perIp = limiter(sequelize, 'ip', cfg.perIpPerMinute, 60);
   const failAccount = limiter(sequelize, 'signin-account', cfg.signInFailuresPerAccount, SIGN_IN_WINDOW_SECONDS);
   const failIp = limiter(sequelize, 'signin-ip', cfg.signInFailuresPerIp, SIGN_IN_WINDOW_SECONDS);
+  const resetMail = limiter(sequelize, 'reset-mail', RESET_MAILS_PER_HOUR, 3600);
 
   async function consume(l: RateLimiterPostgres, key: string): Promise<{ ok: boolean; state: LimitState }> {
     try {
@@ -94,6 +99,9 @@ export function createRateLimits(sequelize: Sequelize, cfg: RateLimitConfig): Ra
     },
     async signInSucceeded(email) {
       await failAccount.delete(email);
+    },
+    async allowPasswordResetMail(email) {
+      return (await consume(resetMail, email)).ok;
     },
   };
 }

@@ -203,7 +203,8 @@ export interface paths {
         /**
          * Ask for a password reset link by e-mail
          * @description Always 202, whether or not the address has an account, so the answer tells nobody which
-         *     addresses exist. The e-mail links to `/reset-password?token=…` on the console.
+         *     addresses exist. The e-mail links to `/reset-password?token=…` on the console. At most
+         *     5 links per account per hour are sent; further requests are answered 202 and send nothing.
          */
         post: operations["requestPasswordReset"];
         delete?: never;

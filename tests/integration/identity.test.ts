@@ -189,6 +189,13 @@ describe('password reset', () => {
     expect(reuse.status).toBe(422);
   });
 
+  it('sends at most 5 reset links per account per hour, still answering 202', async () => {
+    const user = await createTestUser(org.id, 'auditor');
+    for (let i = 0; i < 7; i++) expect((await request(t.app).post('/v1/password-resets').send({ email: user.email })).status).toBe(202);
+    await new Promise((r) => setTimeout(r, 200));
+    expect(smtp.messages().filter((m) => m.to.includes(user.email)).length).toBe(5);
+  });
+
   it('answers 202 for an unknown address and sends nothing', async () => {
     const before = smtp.messages().length;
     expect((await request(t.app).post('/v1/password-resets').send({ email: 'ghost@packer.example' })).status).toBe(202);
