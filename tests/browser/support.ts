@@ -3,11 +3,12 @@
 // driven by playwright-core with a fresh, empty profile; screenshots into tests/artifacts/.
 import { mkdirSync, mkdtempSync, rmSync } from 'node:fs';
 import type { AddressInfo } from 'node:net';
-import type { Server } from 'node:http';
+import { createServer } from 'node:http';
+import { startTestSmtp } from '../support/identity';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { chromium, type BrowserContext, type Page } from 'playwright-core';
-import { buildTestApp, createTestOrganisation, type TestApp } from '../support/app';
+import { buildTestApp, createTestOrganisation, testConfig, type TestApp } from '../support/app';
 import { createUser } from '../../server/services/users';
 import type { Principal, Role } from '../../server/services/principal';
 import { createProduct, type ProductInput } from '../../server/services/products';
@@ -28,11 +29,14 @@ export interface Harness {
 const CHROMIUM_ARGS = ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking', '--disable-component-update', '--disable-sync'];
 
 export async function startHarness(label: string): Promise<Harness> {
-  const testApp = buildTestApp();
-  const server: Server = await new Promise((resolve) => {
-    const s = testApp.app.listen(0, '127.0.0.1', () => resolve(s));
-  });
+  // The port first, so that links in e-mail (invitations, resets) point at this very server;
+  // e-mail goes to the local SMTP fake, whose catch the development mailbox shows.
+  const server = createServer();
+  await new Promise<void>((resolve) => server.listen(0, '127.0.0.1', () => resolve()));
   const baseUrl = `http://127.0.0.1:${(server.address() as AddressInfo).port}`;
+  const smtp = await startTestSmtp();
+  const testApp = buildTestApp({ smtp: { ...testConfig().smtp, host: smtp.host, port: smtp.port }, publicUrl: baseUrl });
+  server.on('request', testApp.app);
   const org = await createTestOrganisation(`Browser ${label} packer`);
   const users = {} as Record<Role, string>;
   for (const role of ['admin', 'quality', 'auditor'] as const) {
@@ -73,7 +77,9 @@ export async function startHarness(label: string): Promise<Harness> {
     async close() {
       for (const c of contexts) await c.close().catch(() => undefined);
       for (const d of profiles) rmSync(d, { recursive: true, force: true });
+      server.closeAllConnections();
       await new Promise<void>((resolve) => server.close(() => resolve()));
+      await smtp.stop();
       await testApp.close();
     },
   };

@@ -68,8 +68,9 @@ const referenceLines: Plugin = {
       ctx.stroke();
       ctx.setLineDash([]);
       if (line.axis === 'x') {
-        ctx.textAlign = px > area.right - 60 ? 'right' : 'left';
-        ctx.fillText(line.label, px + (ctx.textAlign === 'right' ? -4 : 4), area.top + 12 + 13 * (i % 3));
+        const flip = px + ctx.measureText(line.label).width + 6 > area.right;
+        ctx.textAlign = flip ? 'right' : 'left';
+        ctx.fillText(line.label, px + (flip ? -4 : 4), area.top + 12 + 13 * (i % 3));
       } else {
         ctx.textAlign = 'right';
         ctx.fillText(line.label, area.right - 4, px - 4);
