@@ -1,7 +1,7 @@
 // API keys as admins see them: issue (the secret is returned once), list, read, revoke — each
 // change written to the audit trail. Verification of presented keys is in api-keys.ts.
 import { ApiKey } from '../models';
-import { NotFoundProblem, ValidationProblem } from '../http/problem';
+import { NotFoundProblem, UnprocessableProblem, ValidationProblem } from '../http/problem';
 import { issueApiKey, listApiKeys, revokeApiKey } from './api-keys';
 import { recordAudit, type Actor } from './audit-trail';
 import type { Principal, Scope } from './principal';
@@ -42,6 +42,17 @@ export async function createKey(
   const expiresAt = input.expiresAt ? new Date(input.expiresAt) : null;
   if (expiresAt && expiresAt.getTime() <= Date.now()) {
     throw new ValidationProblem('expiresAt must be in the future.', [{ pointer: '/body/expiresAt', detail: 'in the past' }]);
+  }
+  // Least privilege: a key that manages keys may hand out only scopes it holds itself; an admin session may grant any.
+  if (actor.principal.kind === 'api-key') {
+    const beyond = input.scopes.filter((s) => !actor.principal.scopes.includes(s));
+    if (beyond.length > 0) {
+      throw new UnprocessableProblem(
+        `An API key can only issue keys with scopes it holds itself; this key lacks ${beyond.join(', ')}. Ask an admin to issue it from the console.`,
+        'scope-escalation',
+        { errors: [{ pointer: '/body/scopes', detail: `not held by the issuing key: ${beyond.join(', ')}` }] },
+      );
+    }
   }
   const createdBy = actor.principal.userId ?? actor.principal.keyId ?? null;
   const { key, secret } = await issueApiKey({ organisationId: actor.principal.organisationId, name, scopes: input.scopes, expiresAt, createdBy });
