@@ -1,12 +1,13 @@
 // The admin's path: a key issued, its secret shown once, used by a plain HTTP call, revoked, and
 // the same call refused; and the other admin views drawn, at desktop and at tablet width.
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { screenshot, seedProduct, signIn, startHarness, type Harness } from './support';
+import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
+import { screenshot, seedProduct, signIn, startHarness, type Harness, screenshotOnFailure } from './support';
 
 let h: Harness;
 beforeAll(async () => {
   h = await startHarness('admin');
 });
+afterEach(screenshotOnFailure);
 afterAll(async () => {
   await h?.close();
 });

@@ -1,8 +1,8 @@
 // The quality engineer's path and the auditor's: a CSV read and judged in the browser, sent with a
 // progress bar, its sealed verdict drawn; then the seal checked in the auditor's browser, and a
 // tampered export refused.
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { demoCsv, screenshot, seedProduct, signIn, startHarness, type Harness } from './support';
+import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
+import { demoCsv, screenshot, seedProduct, signIn, startHarness, type Harness, screenshotOnFailure } from './support';
 
 let h: Harness;
 let product: { id: string; sku: string; name: string };
@@ -13,6 +13,7 @@ beforeAll(async () => {
   h = await startHarness('lots');
   product = await seedProduct(h, { name: 'Rolled oats 500 g (browser test)' });
 });
+afterEach(screenshotOnFailure);
 afterAll(async () => {
   await h?.close();
 });
@@ -22,8 +23,13 @@ describe('submitting a lot by hand', () => {
     const { page } = await h.open();
     await signIn(page, h.users.quality);
     await page.locator('[data-nav-item="lot-new"]').click();
-    await page.locator('[data-product-picker]').fill('browser test');
-    await page.getByRole('option', { name: /Rolled oats 500 g \(browser test\)/ }).click();
+    // By keyboard: type part of the name, the first match is active, Enter takes it.
+    await page.locator('[data-product-picker]').waitFor();
+    await page.waitForLoadState('networkidle');
+    await page.locator('[data-product-picker]').pressSequentially('browser test');
+    await page.getByRole('option', { name: /Rolled oats 500 g \(browser test\)/ }).waitFor();
+    await page.locator('[data-product-picker]').press('Enter');
+    await page.locator('[data-product-spec]').waitFor();
     await page.getByLabel('Lot code').fill('L-BRW-0001');
     await page.getByLabel('Line').fill('Line 2');
     await page.getByLabel('Lot size (packs)').fill('4800');

@@ -1,12 +1,13 @@
 // Each role signs in through the real sign-in form and sees only its own sections; the router
 // also refuses a section of another role typed into the address bar.
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { navigationNames, screenshot, signIn, startHarness, type Harness } from './support';
+import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
+import { navigationNames, screenshot, signIn, startHarness, type Harness, screenshotOnFailure } from './support';
 
 let h: Harness;
 beforeAll(async () => {
   h = await startHarness('navigation');
 });
+afterEach(screenshotOnFailure);
 afterAll(async () => {
   await h?.close();
 });

@@ -28,6 +28,15 @@ export interface Harness {
 
 const CHROMIUM_ARGS = ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking', '--disable-component-update', '--disable-sync'];
 
+let lastPage: Page | null = null;
+
+/** A screenshot of the page a failed test left behind (call from afterEach). */
+export async function screenshotOnFailure(ctx: { task: { name: string; result?: { state?: string } } }): Promise<void> {
+  if (ctx.task.result?.state === 'fail' && lastPage && !lastPage.isClosed()) {
+    await screenshot(lastPage, `failed-${ctx.task.name.replace(/[^a-z0-9]+/gi, '-').slice(0, 60)}`).catch(() => undefined);
+  }
+}
+
 export async function startHarness(label: string): Promise<Harness> {
   // The port first, so that links in e-mail (invitations, resets) point at this very server;
   // e-mail goes to the local SMTP fake, whose catch the development mailbox shows.
@@ -66,6 +75,7 @@ export async function startHarness(label: string): Promise<Harness> {
       });
       contexts.push(context);
       const page = context.pages()[0] ?? (await context.newPage());
+      lastPage = page;
       page.setDefaultTimeout(15_000);
       // Uncaught errors in the console surface in the test output.
       page.on('pageerror', (err) => console.error(`[browser] ${err.message}`));
