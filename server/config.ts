@@ -115,7 +115,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     host,
     port,
     databaseUrl,
-    embeddedPgPort: int(env, 'LOTPROOF_PG_PORT', 54780, 1024, 65535),
+    embeddedPgPort: int(env, 'LOTPROOF_PG_PORT', 25480, 1024, 65535),
     dataDir: resolve(env.LOTPROOF_DATA_DIR || '.data'),
     bodyLimitBytes: int(env, 'LOTPROOF_BODY_LIMIT_MB', 40, 1, 1024) * 1024 * 1024,
     publicUrl: (env.LOTPROOF_PUBLIC_URL || `http://${host}:${port}`).replace(/\/$/, ''),

@@ -54,6 +54,12 @@ function runPg(bin: string, args: string[], opts: { allowFail?: boolean } = {}):
   return { status: r.status ?? 1, output };
 }
 
+/** True when nothing listens on 127.0.0.1:port (checked with a synchronous probe, as start-up is synchronous). */
+function portIsFree(port: number): boolean {
+  const probe = `const s=require('net').createServer();s.once('error',()=>process.exit(1));s.listen(${port},'127.0.0.1',()=>s.close(()=>process.exit(0)))`;
+  return spawnSync(process.execPath, ['-e', probe]).status === 0;
+}
+
 export async function freePort(): Promise<number> {
   return new Promise((res, rej) => {
     const srv = createServer();
@@ -107,6 +113,9 @@ export function startCluster(opts: ClusterOptions): RunningCluster {
 
   const status = runPg(join(bin, 'pg_ctl'), ['-D', data, 'status'], { allowFail: true });
   if (status.status !== 0) {
+    if (!portIsFree(opts.port)) {
+      throw new Error(`Port ${opts.port} on 127.0.0.1 is taken by another program; choose another with LOTPROOF_PG_PORT.`);
+    }
     const options = `-c listen_addresses=127.0.0.1 -p ${opts.port} -k ${sock} -c fsync=on -c max_connections=200`;
     runPg(join(bin, 'pg_ctl'), ['-D', data, '-l', join(dir, 'postgres.log'), '-o', options, '-w', '-t', '60', 'start']);
     log(`PostgreSQL listening on 127.0.0.1:${opts.port}`);
