@@ -83,11 +83,11 @@ addDemoStep(async (ctx, org) => {
     const exists = await Product.findOne({ where: { organisationId: org.id, sku: p.sku, archivedAt: null } });
     if (!exists) await createProduct(principal, p);
   }
-  const [{ n }] = await ctx.db.sequelize.query<{ n: number }>('SELECT count(*)::int AS n FROM verdicts WHERE organisation_id = $1', {
+  const [counted] = await ctx.db.sequelize.query<{ n: number }>('SELECT count(*)::int AS n FROM verdicts WHERE organisation_id = $1', {
     bind: [org.id],
     type: QueryTypes.SELECT,
   });
-  if (n === 0) {
+  if ((counted?.n ?? 0) === 0) {
     const rng = seededRng(20_250_301);
     const start = Date.now() - 35 * DAY;
     const plan: { sku: string; kind: Kind }[] = [];
