@@ -51,6 +51,8 @@ export default defineConfig({
           name: 'browser',
           include: ['tests/browser/**/*.test.ts'],
           environment: 'node',
+          // Browser tests run after every other project, on a quiet machine, so their waits mean what they say.
+          sequence: { groupOrder: 1 },
           testTimeout: 180_000,
           hookTimeout: 180_000,
           fileParallelism: false,

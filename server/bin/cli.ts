@@ -44,7 +44,8 @@ function need(values: Record<string, unknown>, name: string): string {
 
 /** The operator acts inside an organisation; the audit trail names the CLI. */
 function operator(organisationId: string): Principal {
-  return { organisationId, kind: 'api-key', scopes: ['keys:manage'] };
+  // The operator at the machine may grant any scope (keys issued by keys are limited to their own scopes).
+  return { organisationId, kind: 'api-key', scopes: [...SCOPES] };
 }
 
 async function portOpen(port: number): Promise<boolean> {

@@ -258,7 +258,7 @@ describe('API keys', () => {
   });
 
   it('lets a keys:manage key manage keys, and refuses an expiry in the past naming the field', async () => {
-    const manager = await createTestKey(org.id, ['keys:manage']);
+    const manager = await createTestKey(org.id, ['keys:manage', 'lots:submit']);
     const made = await request(t.app).post('/v1/api-keys').set('Authorization', `Bearer ${manager}`).send({ name: 'scripted', scopes: ['lots:submit'], expiresAt: '2099-01-01T00:00:00Z' });
     expect(made.status).toBe(201);
     expect(made.body.key.expiresAt).toBe('2099-01-01T00:00:00.000Z');
