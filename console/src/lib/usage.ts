@@ -1,16 +1,11 @@
 // Shaping the usage report for the chart: one series per key over every UTC day of the range
 // (days without use count 0, so the bars line up), and totals per key for the table's footer.
+import type { components } from '../../../shared/api/schema';
+
 export type Metric = 'requests' | 'lots' | 'measurements';
 
-export interface UsageRow {
-  day: string;
-  keyId: string | null;
-  keyName: string;
-  keyPrefix: string | null;
-  requests: number;
-  lots: number;
-  measurements: number;
-}
+/** One key's use on one UTC day, as the API reports it (generated from the OpenAPI document). */
+export type UsageRow = components['schemas']['UsageReport']['days'][number];
 
 /** Every yyyy-mm-dd from `from` to `to`, inclusive (UTC calendar days). */
 export function daysBetween(from: string, to: string): string[] {
