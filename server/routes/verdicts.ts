@@ -9,7 +9,7 @@ import { submitLot, type CsvQuery } from '../services/lots';
 import { archiveProduct, createProduct, getProduct, listProducts, updateProduct } from '../services/products';
 import { exportDocument, lookupSeal, verifyDocument, verifyLedger } from '../services/seals';
 import { jwks } from '../services/signing-keys';
-import { getVerdict, listVerdicts, recomputeVerdict, type VerdictFilter } from '../services/verdicts';
+import { getVerdict, isVerdictSort, listVerdicts, recomputeVerdict, type VerdictFilter } from '../services/verdicts';
 import {
   createWebhook,
   deleteWebhook,
@@ -92,7 +92,9 @@ export function verdictHandlers(ctx: AppContext): Handlers {
 
     listVerdicts: async (req, res) => {
       const q = req.query as Record<string, unknown>;
-      res.json(await listVerdicts(sequelize, req.principal!, { ...filterOf(q), ...page(q) }));
+      // The validator has already refused a sort outside the enum (400 naming /query/sort).
+      const sort = isVerdictSort(q.sort) ? q.sort : undefined;
+      res.json(await listVerdicts(sequelize, req.principal!, { ...filterOf(q), ...page(q), sort }));
     },
     getVerdict: async (req, res) => {
       res.json(await getVerdict(sequelize, req.principal!, String(req.params.verdictId)));

@@ -437,7 +437,7 @@ export interface paths {
             path?: never;
             cookie?: never;
         };
-        /** Verdicts of your organisation, newest first */
+        /** Verdicts of your organisation, newest first unless sorted otherwise */
         get: operations["listVerdicts"];
         put?: never;
         post?: never;
@@ -1214,6 +1214,13 @@ export interface components {
         FilterFrom: string;
         /** @description Only verdicts recorded before this time */
         FilterTo: string;
+        /**
+         * @description Order of the list: a field, ascending, or with a leading `-` descending. Verdicts that
+         *     share a value keep ledger order (by sequence, in the same direction); verdicts without a
+         *     packed-at time come last either way. A cursor belongs to the sort it was returned for.
+         *     `decision` orders the decision names alphabetically.
+         */
+        VerdictSort: "recordedAt" | "-recordedAt" | "lotCode" | "-lotCode" | "decision" | "-decision" | "packedAt" | "-packedAt";
     };
     requestBodies: never;
     headers: never;
@@ -2107,6 +2114,13 @@ export interface operations {
                 limit?: components["parameters"]["Limit"];
                 /** @description Opaque cursor from the previous page's `nextCursor` */
                 cursor?: components["parameters"]["Cursor"];
+                /**
+                 * @description Order of the list: a field, ascending, or with a leading `-` descending. Verdicts that
+                 *     share a value keep ledger order (by sequence, in the same direction); verdicts without a
+                 *     packed-at time come last either way. A cursor belongs to the sort it was returned for.
+                 *     `decision` orders the decision names alphabetically.
+                 */
+                sort?: components["parameters"]["VerdictSort"];
                 /** @description Only verdicts of this product */
                 productId?: components["parameters"]["FilterProductId"];
                 /** @description Only lots from this packing line */
