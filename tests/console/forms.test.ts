@@ -3,7 +3,7 @@
 import { describe, expect, it } from 'vitest';
 import { mount } from '@vue/test-utils';
 import { nextTick } from 'vue';
-import { apiQuery, EMPTY_FILTERS, filterProblem, filtersFromQuery, queryFromFilters, sortRows } from '../../console/src/lib/verdictFilters';
+import { apiQuery, EMPTY_FILTERS, filterProblem, filtersFromQuery, nextSort, queryFromFilters, SORTS } from '../../console/src/lib/verdictFilters';
 import { crossFieldErrors, emptyDraft, productInputOf } from '../../console/src/lib/productForm';
 import { validateProductInput, validateWebhookInput } from '../../console/src/lib/formValidation';
 import FilterBar from '../../console/src/components/FilterBar.vue';
@@ -28,11 +28,18 @@ describe('verdict filters', () => {
     expect(filterProblem({ ...EMPTY_FILTERS, from: '2025-04-01', to: '2025-04-01' })).toBeNull();
   });
 
-  it('orders a page by lot code with numbers in numeric order, rows without a packing time last', () => {
-    const row = (lotCode: string, packedAt: string | null) => ({ recordedAt: '2025-01-01T00:00:00Z', lot: { lotCode, packedAt } });
-    const rows = [row('L-10', null), row('L-9', '2025-01-02T00:00:00Z'), row('L-100', '2025-01-01T00:00:00Z')];
-    expect(sortRows(rows, 'lotCode').map((r) => r.lot.lotCode)).toEqual(['L-9', 'L-10', 'L-100']);
-    expect(sortRows(rows, '-packedAt').map((r) => r.lot.lotCode)).toEqual(['L-9', 'L-100', 'L-10']);
+  it('sends the sort to listVerdicts (not the default), and a heading flips it', () => {
+    expect(apiQuery({ ...EMPTY_FILTERS, sort: 'decision' }).sort).toBe('decision');
+    expect(apiQuery(EMPTY_FILTERS).sort).toBeUndefined();
+    expect(filtersFromQuery({ sort: '-decision' }).sort).toBe('-decision');
+    expect(filtersFromQuery({ sort: 'sequence' }).sort).toBe('-recordedAt');
+    expect(SORTS).toHaveLength(8);
+    expect(nextSort('-recordedAt', 'recordedAt')).toBe('recordedAt');
+    expect(nextSort('recordedAt', 'recordedAt')).toBe('-recordedAt');
+    expect(nextSort('-recordedAt', 'packedAt')).toBe('-packedAt');
+    expect(nextSort('-recordedAt', 'lotCode')).toBe('lotCode');
+    expect(nextSort('lotCode', 'lotCode')).toBe('-lotCode');
+    expect(nextSort('-lotCode', 'decision')).toBe('decision');
   });
 
   it('FilterBar emits the whole set on Apply, and not while the range is backwards', async () => {

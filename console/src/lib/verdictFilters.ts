@@ -1,11 +1,25 @@
 // The verdicts table's filters: kept in the address (so a filtered list can be bookmarked and
 // shared), turned into the list operation's query parameters (listVerdicts), and back.
-// listVerdicts has no sort parameter (newest first, always), so `sort` orders the page shown.
+// `sort` is listVerdicts' own `sort` parameter: the server orders the whole list and its cursors
+// follow that order, so every page continues the one before.
 import type { Decision } from '../../../shared/engine/types';
+import type { operations } from '../../../shared/api/schema';
 
 export const DECISIONS: readonly Decision[] = ['conforming', 'nonconforming', 'second-sample-required', 'insufficient-data'];
-export const SORTS = ['-recordedAt', 'recordedAt', '-packedAt', 'packedAt', 'lotCode', '-lotCode'] as const;
-export type Sort = (typeof SORTS)[number];
+export type Sort = NonNullable<NonNullable<operations['listVerdicts']['parameters']['query']>['sort']>;
+/** Every value of the API's sort enum (the compiler checks that the list and the enum agree). */
+const SORT_SET: Record<Sort, true> = {
+  '-recordedAt': true,
+  recordedAt: true,
+  '-packedAt': true,
+  packedAt: true,
+  lotCode: true,
+  '-lotCode': true,
+  decision: true,
+  '-decision': true,
+};
+export const SORTS = Object.keys(SORT_SET) as Sort[];
+export type SortField = 'recordedAt' | 'packedAt' | 'lotCode' | 'decision';
 
 export interface VerdictFilters {
   productId: string;
@@ -72,30 +86,14 @@ export function apiQuery(f: VerdictFilters, cursor?: string | null, limit = 25):
   if (f.from) q.from = dayBoundary(f.from);
   if (f.to) q.to = dayBoundary(f.to, true);
   if (f.lotCode.trim()) q.lotCode = f.lotCode.trim();
+  if (f.sort !== '-recordedAt') q.sort = f.sort;
   if (cursor) q.cursor = cursor;
   return q;
 }
 
-interface Sortable {
-  recordedAt: string;
-  lot: { lotCode: string; packedAt: string | null };
-}
-
-/** The page's rows in the chosen order (stable; rows without a packing time go last). */
-export function sortRows<T extends Sortable>(rows: readonly T[], sort: Sort): T[] {
-  const desc = sort.startsWith('-');
-  const field = sort.replace(/^-/, '') as 'recordedAt' | 'packedAt' | 'lotCode';
-  const value = (r: T): string | null => (field === 'recordedAt' ? r.recordedAt : field === 'packedAt' ? r.lot.packedAt : r.lot.lotCode);
-  return rows
-    .map((r, i) => ({ r, i }))
-    .sort((a, b) => {
-      const va = value(a.r);
-      const vb = value(b.r);
-      if (va === vb) return a.i - b.i;
-      if (va === null) return 1;
-      if (vb === null) return -1;
-      const c = field === 'lotCode' ? va.localeCompare(vb, undefined, { numeric: true }) : va < vb ? -1 : 1;
-      return desc ? -c : c;
-    })
-    .map((x) => x.r);
+/** The sort a column heading asks for: times newest first, codes and decisions A–Z on the first click; the next click flips it. */
+export function nextSort(current: Sort, field: SortField): Sort {
+  const first: Sort = field === 'lotCode' || field === 'decision' ? field : `-${field}`;
+  const other: Sort = first.startsWith('-') ? (field as Sort) : (`-${field}` as Sort);
+  return current === first ? other : first;
 }
