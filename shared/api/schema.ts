@@ -846,15 +846,15 @@ export interface components {
             };
         };
         ProductInput: {
-            /** @description Your SKU code */
+            /** @description Your SKU code, unique among your active products */
             sku: string;
             name: string;
             description?: string;
-            /** @description Nominal quantity Qn printed on the label */
+            /** @description Nominal quantity Qn printed on the label, in `unit` */
             nominalQuantity: number;
             unit: components["schemas"]["Unit"];
             tareMode: components["schemas"]["TareMode"];
-            /** @description Tare of every pack (tare mode fixed) */
+            /** @description Tare of every pack (tare mode fixed), in `tareUnit` */
             fixedTare?: number | null;
             /** @description Unit of tare values; default the lot's measurement unit */
             tareUnit?: components["schemas"]["Unit"] | null;
@@ -927,7 +927,7 @@ export interface components {
             clientReference?: string;
             /**
              * Format: uuid
-             * @description The first sample's verdict
+             * @description The first sample's verdict, when this is a second sample
              */
             firstSampleVerdictId?: string;
         };
@@ -979,19 +979,19 @@ export interface components {
             rulebook: components["schemas"]["RulebookChoice"];
         };
         Seal: {
-            /** @description SHA-256 of the record's RFC 8785 canonical JSON */
+            /** @description SHA-256 of the record's RFC 8785 canonical JSON, hex */
             value: string;
             /** @enum {string} */
             algorithm: "SHA-256";
             /** @enum {string} */
             canonicalization: "RFC 8785";
-            /** @description Ed25519 signature of the 32 digest bytes */
+            /** @description Ed25519 signature of the 32 digest bytes, base64url */
             signature: string;
             /** @enum {string} */
             signatureAlgorithm: "Ed25519";
             /** @description Key id in /.well-known/jwks.json (RFC 7638 thumbprint) */
             kid: string;
-            /** @description Position in your organisation's chain */
+            /** @description Position in your organisation's chain, from 1 */
             sequence: number;
             /** @description Seal of the verdict before this one in the chain */
             previousSeal: string | null;
