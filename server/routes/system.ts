@@ -1,6 +1,6 @@
 // Health, readiness, and the caller's own identity.
 import type { AppContext, Handlers } from '../http/context';
-import { Organisation } from '../models';
+import { Organisation, User } from '../models';
 import { NotFoundProblem } from '../http/problem';
 
 export function systemHandlers(ctx: AppContext): Handlers {
@@ -27,6 +27,8 @@ export function systemHandlers(ctx: AppContext): Handlers {
       const p = req.principal!;
       const org = await Organisation.findByPk(p.organisationId);
       if (!org) throw new NotFoundProblem('The organisation of this credential no longer exists.');
+      // A session's user, scoped by the organisation like every other read (an API key has none).
+      const user = p.userId ? await User.findOne({ where: { id: p.userId, organisationId: p.organisationId }, attributes: ['email'] }) : null;
       res.json({
         organisation: { id: org.id, name: org.name, demo: org.demo },
         kind: p.kind,
@@ -34,6 +36,7 @@ export function systemHandlers(ctx: AppContext): Handlers {
         ...(p.role ? { role: p.role } : {}),
         ...(p.keyId ? { keyId: p.keyId } : {}),
         ...(p.userId ? { userId: p.userId } : {}),
+        ...(user ? { email: user.email } : {}),
       });
     },
   };

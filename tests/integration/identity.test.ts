@@ -89,7 +89,13 @@ describe('invitation → e-mail → accept → sign in', () => {
     expect(me.status).toBe(200);
     expect(me.body.user).toMatchObject({ email, role: 'quality' });
     const caller = await request(t.app).get('/v1/me').set('Cookie', cookie);
-    expect(caller.body).toMatchObject({ kind: 'session', role: 'quality' });
+    expect(caller.body).toMatchObject({ kind: 'session', role: 'quality', email, userId: me.body.user.id });
+    // An API key has no user, so no e-mail address.
+    const keyCaller = await request(t.app).get('/v1/me').set('Authorization', `Bearer ${await createTestKey(org.id, ['verdicts:read'])}`);
+    expect(keyCaller.status).toBe(200);
+    expect(keyCaller.body.kind).toBe('api-key');
+    expect(keyCaller.body).not.toHaveProperty('email');
+    expect(keyCaller.body).not.toHaveProperty('userId');
 
     expect((await request(t.app).delete('/v1/session').set('Cookie', cookie).set(C)).status).toBe(204);
     expect((await request(t.app).get('/v1/session').set('Cookie', cookie)).status).toBe(401);
