@@ -9,6 +9,7 @@ import type { components } from '../../../shared/api/schema';
 export type Verdict = components['schemas']['Verdict'];
 export type SealedDocument = components['schemas']['SealedDocument'];
 export type SealLookup = components['schemas']['SealLookup'];
+export type Recomputation = components['schemas']['Recomputation'];
 
 export const useVerdictsStore = defineStore('verdicts', () => {
   const items = ref<Verdict[]>([]);
@@ -56,5 +57,10 @@ export const useVerdictsStore = defineStore('verdicts', () => {
     return call(api.GET('/v1/seals/{seal}', { params: { path: { seal } } }));
   }
 
-  return { items, loading, problem, page, nextCursor, load, get, document, bySeal };
+  /** Re-run the engine on the stored input (recomputeVerdict): was the stored result reproduced exactly? */
+  async function recompute(id: string): Promise<Recomputation> {
+    return call(api.POST('/v1/verdicts/{verdictId}/recompute', { params: { path: { verdictId: id } } }));
+  }
+
+  return { items, loading, problem, page, nextCursor, load, get, document, bySeal, recompute };
 });
