@@ -37,7 +37,7 @@ export function createApp(ctx: AppContext): Express {
 
   const app = express();
   app.disable('x-powered-by');
-  app.set('trust proxy', 'loopback');
+  app.set('trust proxy', ctx.config.trustProxy);
   app.set('query parser', 'extended');
 
   app.use(

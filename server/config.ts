@@ -1,5 +1,6 @@
 // Configuration, read from the environment and validated once at start-up into one typed object.
 // Nothing else in the server reads process.env.
+import { isIP } from 'node:net';
 import { resolve } from 'node:path';
 
 export interface Config {
@@ -16,6 +17,12 @@ export interface Config {
   bodyLimitBytes: number;
   /** Public base URL used in links (e-mails, docs "servers"). */
   publicUrl: string;
+  /**
+   * Express's `trust proxy`: which hops may set X-Forwarded-For (and so the client IP that rate
+   * limits and logs see). true/false, a number of hops, or addresses, subnets and the names
+   * `loopback`, `linklocal`, `uniquelocal`.
+   */
+  trustProxy: TrustProxy;
   logLevel: string;
   /** Seed the invented demo packer on start. */
   seedDemo: boolean;
@@ -83,6 +90,47 @@ export interface RateLimitConfig {
 
 export class ConfigError extends Error {}
 
+export type TrustProxy = boolean | number | string[];
+
+const PROXY_PRESETS = ['loopback', 'linklocal', 'uniquelocal'];
+
+/** One entry of a trust list: a preset name, an address, or an address with a prefix length (or an IPv4 netmask). */
+function validProxyEntry(entry: string): boolean {
+  if (PROXY_PRESETS.includes(entry)) return true;
+  const slash = entry.indexOf('/');
+  if (slash === -1) return isIP(entry) !== 0;
+  const [addr, range] = [entry.slice(0, slash), entry.slice(slash + 1)];
+  const family = isIP(addr);
+  if (family === 0) return false;
+  if (/^\d{1,3}$/.test(range)) return Number(range) <= (family === 4 ? 32 : 128);
+  // An IPv4 netmask: contiguous ones, then zeros.
+  if (family !== 4 || isIP(range) !== 4) return false;
+  const bits = range.split('.').map((o) => Number(o).toString(2).padStart(8, '0')).join('');
+  return /^1*0*$/.test(bits);
+}
+
+/** LOTPROOF_TRUST_PROXY as Express's `trust proxy` setting accepts it; unset means `loopback`. */
+export function parseTrustProxy(raw: string | undefined): TrustProxy {
+  const name = 'LOTPROOF_TRUST_PROXY';
+  const v = (raw ?? '').trim();
+  if (v === '') return ['loopback'];
+  if (/^(true|false)$/i.test(v)) return v.toLowerCase() === 'true';
+  if (/^\d+$/.test(v)) {
+    const hops = Number(v);
+    if (hops > 100) throw new ConfigError(`${name} must be a number of hops from 0 to 100; got "${raw}"`);
+    return hops;
+  }
+  const entries = v.split(',').map((e) => e.trim());
+  const bad = entries.filter((e) => !validProxyEntry(e));
+  if (bad.length > 0) {
+    throw new ConfigError(
+      `${name} must be true, false, a number of hops, or a comma-separated list of addresses, subnets (a.b.c.d/n) and ` +
+        `${PROXY_PRESETS.join(', ')}; not ${bad.map((b) => JSON.stringify(b)).join(', ')}`,
+    );
+  }
+  return entries;
+}
+
 function int(env: NodeJS.ProcessEnv, name: string, fallback: number, min: number, max: number): number {
   const raw = env[name];
   if (raw === undefined || raw === '') return fallback;
@@ -119,6 +167,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     dataDir: resolve(env.LOTPROOF_DATA_DIR || '.data'),
     bodyLimitBytes: int(env, 'LOTPROOF_BODY_LIMIT_MB', 40, 1, 1024) * 1024 * 1024,
     publicUrl: (env.LOTPROOF_PUBLIC_URL || `http://${host}:${port}`).replace(/\/$/, ''),
+    trustProxy: parseTrustProxy(env.LOTPROOF_TRUST_PROXY),
     logLevel: env.LOG_LEVEL || (development ? 'info' : 'info'),
     seedDemo: bool(env, 'LOTPROOF_SEED_DEMO', databaseUrl === null),
     development,
