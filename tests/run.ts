@@ -1,5 +1,5 @@
 // `npm test`: the whole suite on a throwaway PostgreSQL cluster.
-// Makes sure Debian's postgresql, r-base-core and chromium are present, starts a cluster in a temp
+// Makes sure Debian's postgresql, r-base-core and chromium are present, type-checks everything, starts a cluster in a temp
 // folder on a free port, migrates it, builds the console, runs every vitest project, and removes the
 // cluster afterwards — also when tests fail or the run is interrupted.
 import { spawn } from 'node:child_process';
@@ -19,8 +19,18 @@ const cleanup = () => {
   }
 };
 
+function typecheck(): Promise<number> {
+  const child = spawn('npm', ['run', '--silent', 'typecheck'], { stdio: 'inherit' });
+  return new Promise((resolve) => child.on('exit', (code) => resolve(code ?? 1)));
+}
+
 async function main(): Promise<number> {
   ensureDebianPackages(['postgresql', 'r-base-core', 'chromium']);
+  // Strict TypeScript over server, shared, tests and console first: a type error fails the run.
+  if (!process.env.LOTPROOF_SKIP_TYPECHECK && (await typecheck()) !== 0) {
+    console.error('Type check failed (npm run typecheck).');
+    return 1;
+  }
   const dir = mkdtempSync(join(tmpdir(), 'lotproof-test-pg-'));
   cluster = startCluster({ dir, port: await freePort(), database: 'lotproof_test' });
   const db = openDatabase(cluster.url);
