@@ -1,6 +1,6 @@
 // The demo packer's lots: seeded from a fixed generator, mostly conforming, some nonconforming,
 // one waiting for a second sample, all sealed in an intact chain; seeding twice adds nothing.
-import { mkdtempSync } from 'node:fs';
+import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import request from 'supertest';
@@ -10,10 +10,14 @@ import { seedDemo } from '../../server/demo/seed';
 import { buildTestApp, type TestApp } from '../support/app';
 
 let t: TestApp;
+const dataDir = mkdtempSync(join(tmpdir(), 'lotproof-demo-'));
 beforeAll(() => {
-  t = buildTestApp({ dataDir: mkdtempSync(join(tmpdir(), 'lotproof-demo-')) });
+  t = buildTestApp({ dataDir });
 });
-afterAll(() => t.close());
+afterAll(async () => {
+  await t.close();
+  rmSync(dataDir, { recursive: true, force: true });
+});
 
 describe('demo lots', () => {
   it('seeds the invented packer with sealed lots of every kind, once', async () => {

@@ -63,7 +63,7 @@ function expectProblem(res: request.Response, status: number, pointer?: string |
 describe('the offline verifier', () => {
   it('accepts an exported verdict and rejects it after any one byte is changed', async () => {
     const { execFileSync, spawnSync } = await import('node:child_process');
-    const { mkdtempSync, writeFileSync } = await import('node:fs');
+    const { mkdtempSync, rmSync, writeFileSync } = await import('node:fs');
     const { join } = await import('node:path');
     const { tmpdir } = await import('node:os');
     const created = await request(t.app).post('/v1/lots').set(auth()).send(lotBody(product.sku, 2));
@@ -103,6 +103,7 @@ describe('the offline verifier', () => {
         expect(r.status, `byte ${pos} +${delta} was accepted`).not.toBe(0);
       }
     }
+    rmSync(dir, { recursive: true, force: true });
   }, 120_000);
 });
 
