@@ -10,6 +10,13 @@ export interface Database {
   close: () => Promise<void>;
 }
 
+const closeHooks = new Set<() => Promise<void>>();
+
+/** Work to finish before any pool closes (e.g. counters gathered in memory are written out). */
+export function onDatabaseClose(hook: () => Promise<void>): void {
+  closeHooks.add(hook);
+}
+
 export function openDatabase(url: string, logger?: Logger, poolMax = 20): Database {
   const sequelize = new Sequelize(url, {
     dialect: 'postgres',
@@ -32,6 +39,9 @@ export function openDatabase(url: string, logger?: Logger, poolMax = 20): Databa
         clearTimeout(timer);
       }
     },
-    close: () => sequelize.close(),
+    close: async () => {
+      for (const hook of closeHooks) await hook().catch(() => {});
+      await sequelize.close();
+    },
   };
 }

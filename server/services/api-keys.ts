@@ -61,8 +61,9 @@ export async function verifyApiKey(secret: string, now = new Date()): Promise<Ke
   }
   if (key.revokedAt) return { ok: false, reason: 'revoked' };
   if (key.expiresAt && key.expiresAt.getTime() <= now.getTime()) return { ok: false, reason: 'expired' };
-  // Record use at most once a minute per key, so a busy key does not write on every request.
-  void ApiKey.update(
+  // Record use at most once a minute per key, so a busy key does not write on every request (nor
+  // send the conditional UPDATE at all while the row just read says it was used this minute).
+  if (!key.lastUsedAt || key.lastUsedAt.getTime() < now.getTime() - 60_000) void ApiKey.update(
     { lastUsedAt: now },
     {
       where: {

@@ -1,11 +1,10 @@
 // RFC 8785 JSON Canonicalization Scheme (JCS), the form every seal is computed over.
 //
 // `canonicalize` (npm, maintained by an RFC 8785 author) is the reference; this module adds one
-// fast path it lacks: an array made only of finite numbers is serialised with a single
-// JSON.stringify, which is exactly RFC 8785's form for it (ECMAScript Number serialisation,
-// RFC 8785 §3.2.2.3, is what JSON.stringify uses; -0 becomes 0 in both). A lot of a million
-// measurements canonicalises several times faster that way. tests/integration/ledger.test.ts
-// checks the two agree.
+// fast path it lacks: an array made only of finite numbers (a lot's measurements) is written by
+// `numberArrayJson`, which gives exactly what JSON.stringify gives — and JSON.stringify of a
+// finite number is RFC 8785's form for it (ECMAScript Number serialisation, §3.2.2.3; -0 becomes
+// 0). tests/integration/ledger.test.ts and tests/unit/canonical-numbers.test.ts check they agree.
 import canonicalizeReference from 'canonicalize';
 
 export class CanonicalisationError extends Error {}
@@ -16,6 +15,69 @@ function allFiniteNumbers(a: unknown[]): boolean {
     if (typeof v !== 'number' || !Number.isFinite(v)) return false;
   }
   return true;
+}
+
+let scratch = Buffer.allocUnsafe(1 << 16);
+const digits = new Uint8Array(24);
+
+/**
+ * JSON.stringify(a) for an array of finite numbers, about three times faster for measurements
+ * with up to three decimals (JSON.stringify of a million such doubles takes longer than parsing
+ * them). Why it is the same text: let k = Math.round(v·1000). When |k| < 10^15 and k / 1000 === v,
+ * v is the double nearest to the decimal D = k/1000 (k and 1000 are exact, and IEEE division
+ * rounds correctly), and D has at most 15 significant digits. Distinct decimals of at most 15
+ * significant digits never share a double, so D (without trailing zeros) is the one shortest
+ * digit string that reads back as v — which is what ECMAScript's Number::toString prints, in
+ * plain notation because 0.001 ≤ |v| < 10^12 (or v = 0; -0 prints as 0 in both). Every other
+ * value is written by JSON.stringify itself.
+ */
+export function numberArrayJson(a: readonly number[]): string {
+  let buf = scratch;
+  let p = 0;
+  buf[p++] = 0x5b; // [
+  for (let i = 0; i < a.length; i++) {
+    if (p + 40 > buf.length) {
+      const bigger = Buffer.allocUnsafe(buf.length * 2);
+      buf.copy(bigger, 0, 0, p);
+      buf = scratch = bigger;
+    }
+    if (i > 0) buf[p++] = 0x2c; // ,
+    const v = a[i]!;
+    const k = Math.round(v * 1000);
+    if (k / 1000 === v && k < 1e15 && k > -1e15) {
+      let ak = k;
+      if (k < 0) {
+        ak = -k;
+        buf[p++] = 0x2d; // -
+      }
+      let ip = Math.floor(ak / 1000);
+      const fr = ak - ip * 1000;
+      let t = 0;
+      do {
+        const q = Math.floor(ip / 10);
+        digits[t++] = 0x30 + (ip - q * 10);
+        ip = q;
+      } while (ip > 0);
+      while (t > 0) buf[p++] = digits[--t]!;
+      if (fr !== 0) {
+        const d1 = Math.floor(fr / 100);
+        const d2 = Math.floor(fr / 10) % 10;
+        const d3 = fr % 10;
+        buf[p++] = 0x2e; // .
+        buf[p++] = 0x30 + d1;
+        if (d2 !== 0 || d3 !== 0) {
+          buf[p++] = 0x30 + d2;
+          if (d3 !== 0) buf[p++] = 0x30 + d3;
+        }
+      }
+    } else {
+      p += buf.write(JSON.stringify(v), p, 'latin1');
+    }
+  }
+  buf[p++] = 0x5d; // ]
+  // A big scratch buffer is not kept for the next, probably small, call.
+  if (scratch.length > 1 << 24) scratch = Buffer.allocUnsafe(1 << 16);
+  return buf.toString('latin1', 0, p);
 }
 
 function walk(value: unknown, out: string[]): void {
@@ -35,7 +97,7 @@ function walk(value: unknown, out: string[]): void {
   }
   if (Array.isArray(value)) {
     if (value.length > 64 && allFiniteNumbers(value)) {
-      out.push(JSON.stringify(value));
+      out.push(numberArrayJson(value as number[]));
       return;
     }
     out.push('[');

@@ -10,7 +10,7 @@
 // one without its verdict.
 import { createHash, randomUUID } from 'node:crypto';
 import { EventEmitter } from 'node:events';
-import { QueryTypes, type Sequelize, type Transaction } from 'sequelize';
+import type { Sequelize } from 'sequelize';
 import type { Config } from '../config';
 import { ConflictProblem, UnprocessableProblem } from '../http/problem';
 import { currentSigningKey, publishSigningKey, signSeal } from './signing-keys';
@@ -46,19 +46,42 @@ ledgerEvents.setMaxListeners(100);
 const LOCK_CLASS = 7820;
 export const SUBMIT_OPERATION = 'submitLot';
 
-async function lockChain(sequelize: Sequelize, t: Transaction, organisationId: string): Promise<void> {
-  await sequelize.query('SELECT pg_advisory_xact_lock($1, hashtext($2))', { bind: [LOCK_CLASS, organisationId], transaction: t });
+/** VALUES tuples for rows, appending their values to bind (numbered after what bind holds). */
+function values(rows: unknown[][], casts: string[], bind: unknown[]): string {
+  return rows.map((r) => `(${r.map((v, i) => (bind.push(v), `$${bind.length}${casts[i] ?? ''}`)).join(', ')})`).join(', ');
 }
 
-function values(rows: unknown[][], casts: string[]): { sql: string; bind: unknown[] } {
-  const bind: unknown[] = [];
-  const tuples = rows.map((r) => `(${r.map((v, i) => (bind.push(v), `$${bind.length}${casts[i] ?? ''}`)).join(', ')})`);
-  return { sql: tuples.join(', '), bind };
+/** The node-postgres client behind a Sequelize connection (what the connection manager hands out). */
+interface PgClient {
+  query(text: string, values?: unknown[]): Promise<PgResult | PgResult[]>;
+  escapeLiteral(s: string): string;
+}
+interface PgResult {
+  command: string;
+  rows: Record<string, unknown>[];
+}
+interface ConnectionManager {
+  getConnection(): Promise<PgClient>;
+  releaseConnection(c: PgClient): Promise<void>;
+}
+
+const UUID = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i;
+/** Bind parameters one statement may carry (PostgreSQL's limit is 65 535). */
+const MAX_BINDS = 60_000;
+/** Group-commit transactions in flight per process: the next batch links and seals while the one
+ *  before it commits; the advisory lock still orders them, so the chain cannot fork. */
+const IN_FLIGHT = 2;
+
+interface ReadUnderLock {
+  heads: { id: string; sequence: number | null; seal: string | null }[];
+  keys: { organisation_id: string; key: string; request_hash: string; status: number; response: string }[];
+  taken: string[];
+  endpoints: EndpointSubscription[];
 }
 
 class Appender {
   private queue: Queued[] = [];
-  private running = false;
+  private active = 0;
 
   constructor(
     private readonly sequelize: Sequelize,
@@ -68,81 +91,88 @@ class Appender {
   append(item: PendingVerdict): Promise<AppendOutcome> {
     return new Promise((resolve, reject) => {
       this.queue.push({ item, resolve, reject });
-      if (!this.running) void this.run();
+      this.pump();
     });
   }
 
-  private async run(): Promise<void> {
-    this.running = true;
-    try {
-      while (this.queue.length > 0) {
-        const batch = this.queue.splice(0, this.config.verdicts.ledgerBatchMax);
-        try {
-          await this.commit(batch);
-        } catch (err) {
-          if (batch.length === 1) {
-            batch[0]!.reject(err);
-            continue;
-          }
-          // One bad item must not sink the others: retry each on its own.
-          for (const q of batch) {
-            try {
-              await this.commit([q]);
-            } catch (e) {
-              q.reject(e);
-            }
-          }
-        }
-      }
-    } finally {
-      this.running = false;
+  /** Starts batches while there is work and a free slot; a batch takes everything queued so far. */
+  private pump(): void {
+    while (this.queue.length > 0 && this.active < IN_FLIGHT) {
+      const batch = this.queue.splice(0, this.config.verdicts.ledgerBatchMax);
+      this.active++;
+      void this.settle(batch).finally(() => {
+        this.active--;
+        this.pump();
+      });
     }
   }
 
+  private async settle(batch: Queued[]): Promise<void> {
+    try {
+      await this.commit(batch);
+    } catch (err) {
+      if (batch.length === 1) {
+        batch[0]!.reject(err);
+        return;
+      }
+      // One bad item must not sink the others: retry each on its own.
+      for (const q of batch) {
+        try {
+          await this.commit([q]);
+        } catch (e) {
+          q.reject(e);
+        }
+      }
+    }
+  }
+
+  /**
+   * One transaction, three round trips: (1) BEGIN, the advisory locks and every read the batch
+   * needs, sent as one simple-protocol query — each statement of it takes its own snapshot, so the
+   * reads after the lock see every commit made before the lock was granted; (2) one INSERT of the
+   * verdicts, idempotency records, webhook deliveries and alert e-mails (data-modifying CTEs, all
+   * values bound); (3) COMMIT, queued right behind it. The seals are computed between (1) and (2).
+   */
   private async commit(batch: Queued[]): Promise<void> {
     const key = currentSigningKey(this.config);
     await publishSigningKey(this.sequelize, key);
     const outcomes = new Map<Queued, AppendOutcome | Error>();
+    const orgs = [...new Set(batch.map((b) => b.item.organisationId))].sort();
+    for (const o of orgs) if (!UUID.test(o)) throw new Error(`not an organisation id: ${JSON.stringify(o)}`);
+    const keyed = batch.filter((b) => b.item.idempotency);
+    const firstIds = batch.map((b) => b.item.row.first_sample_verdict_id).filter((x): x is string => x !== null);
+
+    const cm = this.sequelize.connectionManager as unknown as ConnectionManager;
+    const conn = await cm.getConnection();
+    let inTransaction = false;
     let notified = false;
-    await this.sequelize.transaction(async (t) => {
-      const q = <T extends object>(sql: string, bind: unknown[]) =>
-        this.sequelize.query<T>(sql, { bind, transaction: t, type: QueryTypes.SELECT });
-      const orgs = [...new Set(batch.map((b) => b.item.organisationId))].sort();
-      for (const org of orgs) await lockChain(this.sequelize, t, org);
+    try {
+      const lit = (v: unknown) => conn.escapeLiteral(JSON.stringify(v));
+      const locks = orgs.map((o) => `SELECT pg_advisory_xact_lock(${LOCK_CLASS}, hashtext('${o}'));`).join('\n');
+      const read = `
+        SELECT
+          (SELECT coalesce(json_agg(json_build_object('id', o.id, 'sequence', v.sequence, 'seal', v.seal)), '[]')
+             FROM json_array_elements_text(${lit(orgs)}::json) AS o(id)
+             LEFT JOIN LATERAL (SELECT sequence, seal FROM verdicts WHERE organisation_id = o.id::uuid ORDER BY sequence DESC LIMIT 1) v ON true) AS heads,
+          (SELECT coalesce(json_agg(json_build_object('organisation_id', r.organisation_id, 'key', r.key, 'request_hash', r.request_hash,
+                                                      'status', r.status, 'response', r.response)), '[]')
+             FROM idempotency_records r
+             WHERE r.operation = ${conn.escapeLiteral(SUBMIT_OPERATION)}
+               AND (r.organisation_id, r.key) IN (SELECT (e->>0)::uuid, e->>1 FROM json_array_elements(${lit(keyed.map((b) => [b.item.organisationId, b.item.idempotency!.key]))}::json) e)) AS keys,
+          (SELECT coalesce(json_agg(first_sample_verdict_id), '[]') FROM verdicts
+             WHERE first_sample_verdict_id IN (SELECT x::uuid FROM json_array_elements_text(${lit(firstIds)}::json) x)) AS taken,
+          (SELECT coalesce(json_agg(json_build_object('id', w.id, 'organisation_id', w.organisation_id, 'events', w.events)), '[]')
+             FROM webhook_endpoints w
+             WHERE w.organisation_id IN (SELECT x::uuid FROM json_array_elements_text(${lit(orgs)}::json) x) AND w.enabled AND w.deleted_at IS NULL) AS endpoints`;
+      inTransaction = true;
+      const results = (await conn.query(`BEGIN;\n${locks}\n${read}`)) as PgResult[];
+      const raw = results[results.length - 1]!.rows[0]!;
+      const got = Object.fromEntries(Object.entries(raw).map(([k, v]) => [k, typeof v === 'string' ? JSON.parse(v) : v])) as unknown as ReadUnderLock;
 
-      // Read under the lock, each in its own statement (so it sees every commit before the lock).
-      const heads = await q<{ id: string; sequence: string | null; seal: string | null }>(
-        `SELECT o.id, v.sequence, v.seal FROM unnest($1::uuid[]) AS o(id)
-         LEFT JOIN LATERAL (SELECT sequence, seal FROM verdicts WHERE organisation_id = o.id ORDER BY sequence DESC LIMIT 1) v ON true`,
-        [orgs],
-      );
-      const head = new Map(heads.map((h) => [h.id, { sequence: Number(h.sequence ?? 0), seal: h.seal }]));
-
-      const keyed = batch.filter((b) => b.item.idempotency);
-      const existingKeys = new Map<string, { request_hash: string; status: number; response: string }>();
-      if (keyed.length > 0) {
-        const rows = await q<{ organisation_id: string; key: string; request_hash: string; status: number; response: string }>(
-          `SELECT organisation_id, key, request_hash, status, response FROM idempotency_records
-           WHERE operation = $1 AND (organisation_id, key) IN (SELECT * FROM unnest($2::uuid[], $3::text[]))`,
-          [SUBMIT_OPERATION, keyed.map((b) => b.item.organisationId), keyed.map((b) => b.item.idempotency!.key)],
-        );
-        for (const r of rows) existingKeys.set(`${r.organisation_id}\n${r.key}`, r);
-      }
-
-      const firstIds = batch.map((b) => b.item.row.first_sample_verdict_id).filter((x): x is string => x !== null);
-      const takenFirst = new Set<string>();
-      if (firstIds.length > 0) {
-        const rows = await q<{ first_sample_verdict_id: string }>(
-          'SELECT first_sample_verdict_id FROM verdicts WHERE first_sample_verdict_id = ANY($1::uuid[])',
-          [firstIds],
-        );
-        for (const r of rows) takenFirst.add(r.first_sample_verdict_id);
-      }
-
-      const endpoints = await q<EndpointSubscription>(
-        'SELECT id, organisation_id, events FROM webhook_endpoints WHERE organisation_id = ANY($1::uuid[]) AND enabled AND deleted_at IS NULL',
-        [orgs],
-      );
+      const head = new Map(got.heads.map((h) => [h.id, { sequence: Number(h.sequence ?? 0), seal: h.seal }]));
+      const existingKeys = new Map(got.keys.map((r) => [`${r.organisation_id}\n${r.key}`, r]));
+      const takenFirst = new Set<string>(got.taken);
+      const endpoints = got.endpoints;
 
       const verdictRows: unknown[][] = [];
       const keyRows: unknown[][] = [];
@@ -212,40 +242,69 @@ class Appender {
         if (mail) emailRows.push([randomUUID(), it.organisationId, r.id, mail.recipients, mail.subject, mail.text]);
       }
 
+      const inserts: { sql: string; rows: unknown[][]; casts: string[] }[] = [];
       if (verdictRows.length > 0) {
-        const v = values(verdictRows, ['', '', '', '', '', '', '', '', '', '', '', '::json', '', '', '::timestamptz', '', '', '', '', '', '', '', '', '::json', '', '', '', '::timestamptz']);
-        await this.sequelize.query(
-          `INSERT INTO verdicts (id, organisation_id, sequence, seal, previous_seal, signature, kid, record, product_id, product_sku,
+        inserts.push({
+          sql: `INSERT INTO verdicts (id, organisation_id, sequence, seal, previous_seal, signature, kid, record, product_id, product_sku,
              product_name, product_spec, lot_code, line, packed_at, lot_size, testing, measurement_unit, measurement_count,
              client_reference, source_format, first_sample_verdict_id, decision, result, engine_version, rulebook_id, rulebook_version, recorded_at)
-           VALUES ${v.sql}`,
-          { bind: v.bind, transaction: t },
-        );
+           VALUES `,
+          rows: verdictRows,
+          casts: ['::uuid', '::uuid', '::bigint', '', '', '', '', '', '::uuid', '', '', '::json', '', '', '::timestamptz', '::integer', '', '', '::integer', '', '', '::uuid', '', '::json', '', '', '', '::timestamptz'],
+        });
       }
       if (keyRows.length > 0) {
-        const v = values(keyRows, []);
-        await this.sequelize.query(
-          `INSERT INTO idempotency_records (organisation_id, operation, key, request_hash, status, response, resource_id) VALUES ${v.sql}`,
-          { bind: v.bind, transaction: t },
-        );
+        inserts.push({
+          sql: 'INSERT INTO idempotency_records (organisation_id, operation, key, request_hash, status, response, resource_id) VALUES ',
+          rows: keyRows,
+          casts: ['::uuid', '', '', '', '::integer', '', '::uuid'],
+        });
       }
       if (deliveryRows.length > 0) {
-        const v = values(deliveryRows, []);
-        await this.sequelize.query(
-          `INSERT INTO webhook_deliveries (id, organisation_id, endpoint_id, verdict_id, event_type, payload) VALUES ${v.sql}`,
-          { bind: v.bind, transaction: t },
-        );
-        notified = true;
-      }
-      if (emailRows.length > 0) {
-        const v = values(emailRows, ['', '', '', '::text[]']);
-        await this.sequelize.query(`INSERT INTO alert_emails (id, organisation_id, verdict_id, recipients, subject, body) VALUES ${v.sql}`, {
-          bind: v.bind,
-          transaction: t,
+        inserts.push({
+          sql: 'INSERT INTO webhook_deliveries (id, organisation_id, endpoint_id, verdict_id, event_type, payload) VALUES ',
+          rows: deliveryRows,
+          casts: ['::uuid', '::uuid', '::uuid', '::uuid', '', ''],
         });
         notified = true;
       }
-    });
+      if (emailRows.length > 0) {
+        inserts.push({
+          sql: 'INSERT INTO alert_emails (id, organisation_id, verdict_id, recipients, subject, body) VALUES ',
+          rows: emailRows,
+          casts: ['::uuid', '::uuid', '::uuid', '::text[]', '', ''],
+        });
+        notified = true;
+      }
+      // As few statements as the bind limit allows (usually one): the verdicts first, then the rows
+      // that reference them, as data-modifying CTEs whose foreign keys are checked at the end.
+      const statements: { parts: string[]; bind: unknown[] }[] = [];
+      for (const ins of inserts) {
+        const need = ins.rows.length * ins.casts.length;
+        let cur = statements[statements.length - 1];
+        if (!cur || cur.bind.length + need > MAX_BINDS) statements.push((cur = { parts: [], bind: [] }));
+        const v = values(ins.rows, ins.casts, cur.bind);
+        cur.parts.push(ins.sql + v);
+      }
+      const sent = statements.map((st) => {
+        const [last, ...before] = [...st.parts].reverse();
+        const sql = before.length ? `WITH ${before.reverse().map((p, i) => `w${i} AS (${p})`).join(', ')} ${last}` : last!;
+        return conn.query(sql, st.bind);
+      });
+      const committed = conn.query('COMMIT');
+      // Every query is queued on the connection already; wait for all, so none is left unobserved.
+      const settled = await Promise.allSettled([...sent, committed]);
+      inTransaction = false;
+      const failed = settled.find((x): x is PromiseRejectedResult => x.status === 'rejected');
+      if (failed) throw failed.reason;
+      const tag = (settled[settled.length - 1] as PromiseFulfilledResult<PgResult>).value.command;
+      if (tag !== 'COMMIT') throw new Error(`the ledger transaction ended with ${tag}`);
+    } catch (err) {
+      if (inTransaction) await conn.query('ROLLBACK').catch(() => {});
+      throw err;
+    } finally {
+      await cm.releaseConnection(conn);
+    }
     for (const qd of batch) {
       let o = outcomes.get(qd)!;
       if (o instanceof TwinOf) {

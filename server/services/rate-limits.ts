@@ -41,6 +41,58 @@ function stateOf(res: RateLimiterRes, points: number): LimitState {
   return { limit: points, remaining: Math.max(0, res.remainingPoints), resetSeconds: Math.max(1, Math.ceil(res.msBeforeNext / 1000)) };
 }
 
+type Decision = { ok: boolean; state: LimitState };
+
+/**
+ * Consumes request points for a key with at most one upsert in flight per key and process:
+ * requests that arrive while one is on its way are added up and consumed together with
+ * consume(key, n), and each gets the answer it would have had in turn (the i-th of n sees
+ * consumed = total − n + i + 1). The counter stays in PostgreSQL, so every process shares it; but
+ * a busy key no longer queues one commit per request behind the same row lock, which had capped
+ * the whole API near one request per commit.
+ */
+function coalesced(l: RateLimiterPostgres): (key: string) => Promise<Decision> {
+  const waiting = new Map<string, { resolve: (d: Decision) => void; reject: (e: unknown) => void }[]>();
+  const busy = new Set<string>();
+
+  async function drain(key: string): Promise<void> {
+    busy.add(key);
+    try {
+      for (;;) {
+        const batch = waiting.get(key);
+        if (!batch || batch.length === 0) break;
+        waiting.delete(key);
+        const n = batch.length;
+        let res: RateLimiterRes;
+        try {
+          res = await l.consume(key, n);
+        } catch (e) {
+          if (!(e instanceof RateLimiterRes)) {
+            for (const w of batch) w.reject(e);
+            continue;
+          }
+          res = e;
+        }
+        const resetSeconds = Math.max(1, Math.ceil(res.msBeforeNext / 1000));
+        batch.forEach((w, i) => {
+          const consumed = res.consumedPoints - n + i + 1;
+          w.resolve({ ok: consumed <= l.points, state: { limit: l.points, remaining: Math.max(0, l.points - consumed), resetSeconds } });
+        });
+      }
+    } finally {
+      busy.delete(key);
+    }
+  }
+
+  return (key) =>
+    new Promise<Decision>((resolve, reject) => {
+      let q = waiting.get(key);
+      if (!q) waiting.set(key, (q = []));
+      q.push({ resolve, reject });
+      if (!busy.has(key)) void drain(key);
+    });
+}
+
 export interface RateLimits {
   /** Counts one request against the caller's limits (or the IP's, without a valid credential). */
   consumeRequest(principal: Principal | undefined, ip: string): Promise<RequestVerdict>;
@@ -60,6 +112,10 @@ export function createRateLimits(sequelize: Sequelize, cfg: RateLimitConfig): Ra
   const failIp = limiter(sequelize, 'signin-ip', cfg.signInFailuresPerIp, SIGN_IN_WINDOW_SECONDS);
   const resetMail = limiter(sequelize, 'reset-mail', RESET_MAILS_PER_HOUR, 3600);
 
+  const perKeyShared = coalesced(perKey);
+  const perOrgShared = coalesced(perOrg);
+  const perIpShared = coalesced(perIp);
+
   async function consume(l: RateLimiterPostgres, key: string): Promise<{ ok: boolean; state: LimitState }> {
     try {
       return { ok: true, state: stateOf(await l.consume(key), l.points) };
@@ -78,10 +134,10 @@ export function createRateLimits(sequelize: Sequelize, cfg: RateLimitConfig): Ra
     async consumeRequest(principal, ip) {
       const checks = principal
         ? await Promise.all([
-            consume(perKey, principal.kind === 'api-key' ? `k:${principal.keyId}` : `u:${principal.userId}`),
-            consume(perOrg, principal.organisationId),
+            perKeyShared(principal.kind === 'api-key' ? `k:${principal.keyId}` : `u:${principal.userId}`),
+            perOrgShared(principal.organisationId),
           ])
-        : [await consume(perIp, ip)];
+        : [await perIpShared(ip)];
       const refused = checks.filter((c) => !c.ok);
       const pick = (refused.length ? refused : checks).reduce((a, b) =>
         refused.length ? (a.state.resetSeconds >= b.state.resetSeconds ? a : b) : a.state.remaining <= b.state.remaining ? a : b,

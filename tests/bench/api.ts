@@ -3,7 +3,7 @@
 // afterwards; then one lot of 1 000 000 measurements end to end beside JSON.parse of the same
 // body. Prints numbers; it is not a timed test.
 import { spawn, type ChildProcess } from 'node:child_process';
-import { mkdtempSync } from 'node:fs';
+import { mkdtempSync, readdirSync, readFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import autocannon from 'autocannon';
@@ -18,13 +18,18 @@ import { destroyCluster, freePort, startCluster, type RunningCluster } from '../
 
 const DURATION = Number(process.env.BENCH_SECONDS ?? 10);
 const CONNECTIONS = 32;
+// Knobs for investigating (all optional): BENCH_ONLY=bare,api,big runs a subset; BENCH_CPU_PROF=<dir>
+// writes a V8 CPU profile of the API process there; BENCH_WAITS=1 tallies PostgreSQL wait events
+// during the Lotproof run.
+const ONLY = new Set((process.env.BENCH_ONLY ?? 'bare,api,big').split(','));
+const CPU_PROF = process.env.BENCH_CPU_PROF ?? '';
 const children: ChildProcess[] = [];
 let cluster: RunningCluster | null = null;
 
-function startChild(script: string, env: Record<string, string>): Promise<ChildProcess> {
+function startChild(script: string, env: Record<string, string>, nodeArgs: string[] = []): Promise<ChildProcess> {
   return new Promise((resolve, reject) => {
     // One process per server (node with the tsx loader, no npx wrapper), so SIGTERM reaches it.
-    const child = spawn(process.execPath, ['--import', 'tsx', script], { env: { ...process.env, ...env }, stdio: ['ignore', 'pipe', 'inherit'] });
+    const child = spawn(process.execPath, [...nodeArgs, '--import', 'tsx', script], { env: { ...process.env, ...env }, stdio: ['ignore', 'pipe', 'inherit'] });
     children.push(child);
     let out = '';
     child.stdout!.on('data', (c) => {
@@ -35,13 +40,39 @@ function startChild(script: string, env: Record<string, string>): Promise<ChildP
   });
 }
 
-async function run(url: string, headers: Record<string, string>, body: string, title: string) {
+/** CPU seconds (user + system) used so far by the server process and by all PostgreSQL processes. */
+function cpuSeconds(serverPid: number | undefined): { server: number; postgres: number } {
+  const ticks = (pid: string) => {
+    try {
+      const f = readFileSync(`/proc/${pid}/stat`, 'utf8').split(') ')[1]!.split(' ');
+      return { ppid: f[1]!, t: (Number(f[11]) + Number(f[12])) / 100, comm: readFileSync(`/proc/${pid}/comm`, 'utf8').trim() };
+    } catch {
+      return null;
+    }
+  };
+  let postgres = 0;
+  const port = String(cluster?.port ?? '');
+  for (const pid of readdirSync('/proc').filter((d) => /^\d+$/.test(d))) {
+    const s = ticks(pid);
+    if (!s || s.comm !== 'postgres') continue;
+    // only this cluster's processes: the postmaster's command line names the port
+    const master = s.ppid !== '1' && readFileSync(`/proc/${s.ppid}/cmdline`, 'utf8').includes(port) ? s.ppid : null;
+    if (master || readFileSync(`/proc/${pid}/cmdline`, 'utf8').includes(`-p\0${port}`)) postgres += s.t;
+  }
+  return { server: serverPid ? (ticks(String(serverPid))?.t ?? 0) : 0, postgres };
+}
+
+async function run(url: string, headers: Record<string, string>, body: string, title: string, serverPid?: number) {
   // warm-up, then the measured run
   await autocannon({ url, method: 'POST', headers, body, connections: CONNECTIONS, duration: 2 });
+  const c0 = cpuSeconds(serverPid);
   const r = await autocannon({ url, method: 'POST', headers, body, connections: CONNECTIONS, duration: DURATION });
+  const c1 = cpuSeconds(serverPid);
   const ok = r['2xx'];
   const rate = ok / DURATION;
+  const per = (x: number) => ((1000 * x) / Math.max(1, ok)).toFixed(2);
   console.log(`${title.padEnd(34)} ${rate.toFixed(0).padStart(6)} lots/s   p50 ${String(r.latency.p50).padStart(4)} ms   p99 ${String(r.latency.p99).padStart(4)} ms   non-2xx ${r.non2xx}  errors ${r.errors}`);
+  console.log(`${''.padEnd(34)} CPU per lot: server ${per(c1.server - c0.server)} ms, PostgreSQL ${per(c1.postgres - c0.postgres)} ms`);
   return { rate, r };
 }
 
@@ -49,6 +80,32 @@ async function timed<T>(f: () => Promise<T> | T): Promise<[number, T]> {
   const t0 = performance.now();
   const v = await f();
   return [performance.now() - t0, v];
+}
+
+/** Polls pg_stat_activity and counts what the server's connections are waiting on. */
+function sampleWaits(db: ReturnType<typeof openDatabase>) {
+  const tally: Record<string, number> = {};
+  let on = true;
+  const loop = (async () => {
+    while (on) {
+      const rows = (await db.sequelize.query(
+        `SELECT state, wait_event_type, wait_event, left(query, 40) AS q FROM pg_stat_activity WHERE application_name = 'lotproof' AND pid <> pg_backend_pid()`,
+      ))[0] as { state: string; wait_event_type: string | null; wait_event: string | null; q: string }[];
+      for (const r of rows) {
+        if (r.state === 'idle') continue;
+        const k = `${r.state}:${r.wait_event_type ?? '-'}:${r.wait_event ?? '-'}:${r.q.replace(/\s+/g, ' ')}`;
+        tally[k] = (tally[k] ?? 0) + 1;
+      }
+      await new Promise((r) => setTimeout(r, 20));
+    }
+  })();
+  return {
+    stop: async () => {
+      on = false;
+      await loop;
+      return Object.fromEntries(Object.entries(tally).sort((a, b) => b[1] - a[1]).slice(0, 15));
+    },
+  };
 }
 
 const median = (xs: number[]) => [...xs].sort((a, b) => a - b)[Math.floor(xs.length / 2)]!;
@@ -69,12 +126,12 @@ async function main() {
   const barePort = await freePort();
   const apiPort = await freePort();
   const big = 10_000_000 << 3;
-  await startChild('tests/bench/bare-server.ts', { DATABASE_URL: databaseUrl, PORT: String(barePort) });
-  await startChild('server/bin/start.ts', {
+  const bareChild = await startChild('tests/bench/bare-server.ts', { DATABASE_URL: databaseUrl, PORT: String(barePort) });
+  const apiChild = await startChild('server/bin/start.ts', {
     DATABASE_URL: databaseUrl, PORT: String(apiPort), NODE_ENV: 'production', LOG_LEVEL: 'warn', LOTPROOF_SEED_DEMO: 'false',
     LOTPROOF_DATA_DIR: join(dir, 'data'), LOTPROOF_BODY_LIMIT_MB: '64', LOTPROOF_RUN_JOBS: 'false',
     LOTPROOF_RATE_LIMIT_PER_KEY: String(big >> 3), LOTPROOF_RATE_LIMIT_PER_ORG: String(big >> 3), LOTPROOF_RATE_LIMIT_PER_IP: String(big >> 3),
-  });
+  }, CPU_PROF ? ['--cpu-prof', '--cpu-prof-dir', CPU_PROF] : []);
 
   const lot = {
     sku: 'BENCH-500G', lotCode: 'B-1', line: 'Bench line', lotSize: 2400, testing: 'non-destructive', measurementUnit: 'g', measurementBasis: 'net',
@@ -82,13 +139,16 @@ async function main() {
   };
   const body = JSON.stringify(lot);
   console.log(`\nPOST of one lot of 50 measurements, ${CONNECTIONS} connections, ${DURATION} s (after a 2 s warm-up):`);
-  const bare = await run(`http://127.0.0.1:${barePort}/bare`, { 'content-type': 'application/json' }, body, 'bare Express + pg insert');
-  const api = await run(`http://127.0.0.1:${apiPort}/v1/lots`, { 'content-type': 'application/json', authorization: `Bearer ${secret}` }, body, 'Lotproof POST /v1/lots (sealed)');
-  console.log(`ratio Lotproof / bare: ${((100 * api.rate) / bare.rate).toFixed(0)} %  (target ≥ 60 %)`);
+  const bare = ONLY.has('bare') ? await run(`http://127.0.0.1:${barePort}/bare`, { 'content-type': 'application/json' }, body, 'bare Express + pg insert', bareChild.pid) : null;
+  const waits = process.env.BENCH_WAITS ? sampleWaits(db) : null;
+  const api = ONLY.has('api') ? await run(`http://127.0.0.1:${apiPort}/v1/lots`, { 'content-type': 'application/json', authorization: `Bearer ${secret}` }, body, 'Lotproof POST /v1/lots (sealed)', apiChild.pid) : null;
+  if (waits) console.log(`PostgreSQL wait events during the run (samples): ${JSON.stringify(await waits.stop())}`);
+  if (bare && api) console.log(`ratio Lotproof / bare: ${((100 * api.rate) / bare.rate).toFixed(0)} %  (target ≥ 60 %)`);
 
   const verify = await fetch(`http://127.0.0.1:${apiPort}/v1/ledger/verify`, { headers: { authorization: `Bearer ${secret}` } }).then((r) => r.json());
   console.log(`chain after the run: ${verify.intact ? 'intact' : 'BROKEN'}, ${verify.verdictsChecked} verdicts checked${verify.firstBreak ? `; first break ${JSON.stringify(verify.firstBreak)}` : ''}`);
 
+  if (!ONLY.has('big')) return void (await db.close());
   const n = 1_000_000;
   const bigLot = { ...lot, lotCode: 'B-BIG', lotSize: 2_000_000, measurements: packContents(seededRng(8), n, 503, 2, 2) };
   const bigBody = JSON.stringify(bigLot);

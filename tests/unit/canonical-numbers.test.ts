@@ -1,0 +1,40 @@
+// The fast writer of number arrays must give exactly JSON.stringify's text (RFC 8785's number form).
+import { describe, expect, it } from 'vitest';
+import { canonicalJson, canonicalJsonReference, numberArrayJson } from '../../server/services/canonical';
+
+function rng(seed: number) {
+  let s = seed >>> 0;
+  return () => ((s = (Math.imul(s, 1664525) + 1013904223) >>> 0) / 2 ** 32);
+}
+
+describe('numberArrayJson', () => {
+  it('agrees with JSON.stringify on edge values', () => {
+    const edge = [0, -0, 1, -1, 0.1, 0.2, 0.3, 0.001, -0.001, 0.0005, 1e-6, 1e-7, 5e-324, 0.1 + 0.2, 999999999999.999, 1e12, 1e15, 1e21, 1e22,
+      -1e21, 123456789012.5, 2 ** 53, 2 ** 53 + 2, Number.MAX_SAFE_INTEGER, Number.MAX_VALUE, -Number.MAX_VALUE, Number.MIN_VALUE, 503.1, 503.10000000000002,
+      499.999, 500.005, 1.005, 4.35, 0.07, 100, 1000.5, 33.333, 33.3333];
+    expect(numberArrayJson(edge)).toBe(JSON.stringify(edge));
+  });
+
+  it('agrees with JSON.stringify on a million random values of every kind', () => {
+    const r = rng(42);
+    const makers = [
+      () => Math.round(r() * 1e6) / 100,
+      () => Math.round(r() * 1e7) / 1000,
+      () => -Math.round(r() * 1e5) / 10,
+      () => r() * 1e4,
+      () => r() * 1e-3,
+      () => Math.round(r() * 1e15) / 1000,
+      () => Math.round(r() * 1e18) / 1000,
+      () => (r() - 0.5) * 1e300,
+      () => Math.round(r() * 1e9),
+    ];
+    const values = Array.from({ length: 1_000_000 }, (_, i) => makers[i % makers.length]!());
+    expect(numberArrayJson(values)).toBe(JSON.stringify(values));
+  });
+
+  it('is what canonicalJson uses for long number arrays, and matches the reference package', () => {
+    const r = rng(7);
+    const lot = { measurements: Array.from({ length: 5000 }, () => Math.round((500 + r() * 8) * 100) / 100), tares: [1.5, 2] };
+    expect(canonicalJson(lot)).toBe(canonicalJsonReference(lot));
+  });
+});
