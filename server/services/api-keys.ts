@@ -3,6 +3,7 @@
 // low-entropy secrets such as passwords).
 import { createHash, randomBytes, timingSafeEqual } from 'node:crypto';
 import { Op } from 'sequelize';
+import { preparedRows } from '../db/raw';
 import { ApiKey } from '../models';
 import type { Principal, Scope } from './principal';
 
@@ -49,21 +50,35 @@ export type KeyCheck =
   | { ok: true; principal: Principal }
   | { ok: false; reason: 'malformed' | 'unknown' | 'revoked' | 'expired' };
 
+interface KeyRow {
+  id: string;
+  organisation_id: string;
+  secret_hash: Buffer;
+  scopes: string[];
+  expires_at: Date | string | null;
+  revoked_at: Date | string | null;
+  last_used_at: Date | string | null;
+}
+const KEY_BY_PREFIX = 'SELECT id, organisation_id, secret_hash, scopes, expires_at, revoked_at, last_used_at FROM api_keys WHERE prefix = $1';
+
 /** Checks a presented bearer secret against the stored hash; every request reads the row, so a revocation takes effect at once. */
 export async function verifyApiKey(secret: string, now = new Date()): Promise<KeyCheck> {
   const m = KEY_PATTERN.exec(secret);
   if (!m) return { ok: false, reason: 'malformed' };
-  const key = await ApiKey.findOne({ where: { prefix: m[1] } });
+  // A raw prepared statement (no model instance), still one read of the row per request.
+  const sequelize = ApiKey.sequelize!;
+  const key = (await preparedRows<KeyRow>(sequelize, 'lotproof-api-key-by-prefix', KEY_BY_PREFIX, [m[1]]))[0];
   if (!key) return { ok: false, reason: 'unknown' };
   const presented = hashSecret(secret);
-  if (key.secretHash.length !== presented.length || !timingSafeEqual(key.secretHash, presented)) {
+  const stored = Buffer.isBuffer(key.secret_hash) ? key.secret_hash : Buffer.from(key.secret_hash as unknown as string);
+  if (stored.length !== presented.length || !timingSafeEqual(stored, presented)) {
     return { ok: false, reason: 'unknown' };
   }
-  if (key.revokedAt) return { ok: false, reason: 'revoked' };
-  if (key.expiresAt && key.expiresAt.getTime() <= now.getTime()) return { ok: false, reason: 'expired' };
+  if (key.revoked_at) return { ok: false, reason: 'revoked' };
+  if (key.expires_at && new Date(key.expires_at).getTime() <= now.getTime()) return { ok: false, reason: 'expired' };
   // Record use at most once a minute per key, so a busy key does not write on every request (nor
   // send the conditional UPDATE at all while the row just read says it was used this minute).
-  if (!key.lastUsedAt || key.lastUsedAt.getTime() < now.getTime() - 60_000) void ApiKey.update(
+  if (!key.last_used_at || new Date(key.last_used_at).getTime() < now.getTime() - 60_000) void ApiKey.update(
     { lastUsedAt: now },
     {
       where: {
@@ -74,7 +89,7 @@ export async function verifyApiKey(secret: string, now = new Date()): Promise<Ke
   ).catch(() => {});
   return {
     ok: true,
-    principal: { organisationId: key.organisationId, kind: 'api-key', scopes: key.scopes as Scope[], keyId: key.id },
+    principal: { organisationId: key.organisation_id, kind: 'api-key', scopes: key.scopes as Scope[], keyId: key.id },
   };
 }
 

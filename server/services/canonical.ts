@@ -80,6 +80,8 @@ export function numberArrayJson(a: readonly number[]): string {
   return buf.toString('latin1', 0, p);
 }
 
+const SURROGATE = /[\uD800-\uDFFF]/;
+
 function walk(value: unknown, out: string[]): void {
   if (value === null || typeof value !== 'object') {
     if (typeof value === 'number' && !Number.isFinite(value)) throw new CanonicalisationError('a number in the record is not finite');
@@ -87,6 +89,12 @@ function walk(value: unknown, out: string[]): void {
       throw new CanonicalisationError('the record holds a value JSON cannot represent');
     }
     if (typeof value === 'string') {
+      // Without surrogates JSON.stringify is the RFC 8785 form of a string (what the reference
+      // returns); the reference itself checks for lone surrogates and refuses them.
+      if (!SURROGATE.test(value)) {
+        out.push(JSON.stringify(value));
+        return;
+      }
       const s = canonicalizeReference(value);
       if (s === undefined) throw new CanonicalisationError('a string in the record cannot be canonicalised');
       out.push(s);
@@ -96,7 +104,7 @@ function walk(value: unknown, out: string[]): void {
     return;
   }
   if (Array.isArray(value)) {
-    if (value.length > 64 && allFiniteNumbers(value)) {
+    if (value.length > 8 && allFiniteNumbers(value)) {
       out.push(numberArrayJson(value as number[]));
       return;
     }

@@ -6,6 +6,7 @@ import { ENGINE_VERSION, evaluateLot, type LotData, type LotInput, type ProductS
 import type { components } from '../../shared/api/schema';
 import type { Config } from '../config';
 import { ConflictProblem, PayloadTooLargeProblem, UnprocessableProblem, ValidationProblem, type InvalidParam } from '../http/problem';
+import { preparedRows } from '../db/raw';
 import { appendVerdict, keyReusedProblem, newVerdictId, SUBMIT_OPERATION, type AppendOutcome } from './ledger';
 import { readCsvLot } from './lot-csv';
 import type { Principal } from './principal';
@@ -112,6 +113,13 @@ interface ProductRow {
   organisation_name: string;
 }
 
+const PRODUCT_SELECT = `SELECT p.id, p.sku, p.name, p.nominal_quantity, p.unit, p.tare_mode, p.fixed_tare, p.tare_unit, p.density, p.rulebook,
+            p.alert_recipients, o.name AS organisation_name
+     FROM products p JOIN organisations o ON o.id = p.organisation_id
+     WHERE p.organisation_id = $1`;
+const PRODUCT_BY_ID = `${PRODUCT_SELECT} AND p.id = $2`;
+const PRODUCT_BY_SKU = `${PRODUCT_SELECT} AND p.sku = $2 AND p.archived_at IS NULL`;
+
 interface FirstSampleRow {
   id: string;
   decision: string;
@@ -126,9 +134,11 @@ function invalid(detail: string, errors: InvalidParam[]): UnprocessableProblem {
 
 /** Replays a stored reply for this key, or says the key was used for another body. */
 async function priorReply(sequelize: Sequelize, organisationId: string, key: string, hash: string): Promise<AppendOutcome | null> {
-  const rows = await sequelize.query<{ request_hash: string; status: number; response: string }>(
+  const rows = await preparedRows<{ request_hash: string; status: number; response: string }>(
+    sequelize,
+    'lotproof-idempotent-submit',
     'SELECT request_hash, status, response FROM idempotency_records WHERE organisation_id = $1 AND operation = $2 AND key = $3',
-    { bind: [organisationId, SUBMIT_OPERATION, key], type: QueryTypes.SELECT },
+    [organisationId, SUBMIT_OPERATION, key],
   );
   const r = rows[0];
   if (!r) return null;
@@ -170,13 +180,9 @@ export async function submitLot(
   if (!productId && !sub.sku) {
     throw new ValidationProblem('name the product with productId or sku', [{ pointer: fieldPointer('sku'), detail: 'productId or sku is required' }]);
   }
-  const products = await sequelize.query<ProductRow>(
-    `SELECT p.id, p.sku, p.name, p.nominal_quantity, p.unit, p.tare_mode, p.fixed_tare, p.tare_unit, p.density, p.rulebook,
-            p.alert_recipients, o.name AS organisation_name
-     FROM products p JOIN organisations o ON o.id = p.organisation_id
-     WHERE p.organisation_id = $1 AND ${productId ? 'p.id = $2' : 'p.sku = $2 AND p.archived_at IS NULL'}`,
-    { bind: [org, productId ?? sub.sku], type: QueryTypes.SELECT },
-  );
+  const products = productId
+    ? await preparedRows<ProductRow>(sequelize, 'lotproof-product-by-id', PRODUCT_BY_ID, [org, productId])
+    : await preparedRows<ProductRow>(sequelize, 'lotproof-product-by-sku', PRODUCT_BY_SKU, [org, sub.sku]);
   const product = products[0];
   if (!product || (sub.sku && product.sku !== sub.sku) || (first && product.id !== first.row.product_id)) {
     const which = productId && !first ? 'productId' : 'sku';
