@@ -13,6 +13,7 @@ import * as OpenApiValidator from 'express-openapi-validator';
 import { loadApiDocument, operationsOf } from '../openapi/load';
 import { authenticate, authorize } from './http/access';
 import { createMeter } from './http/metering';
+import { memoiseValidatorRouteRegexps } from './http/route-regexp-cache';
 import { registerSessionResolver } from './http/session-auth';
 import type { AppContext } from './http/context';
 import { notFoundHandler, PayloadTooLargeProblem, problemHandler } from './http/problem';
@@ -101,6 +102,7 @@ export function createApp(ctx: AppContext): Express {
   for (const op of operations) {
     app[op.method](expressPath(op.path), authorize(op.access, op.operationId));
   }
+  memoiseValidatorRouteRegexps();
   app.use(
     OpenApiValidator.middleware({
       apiSpec: doc as any,

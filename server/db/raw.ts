@@ -22,3 +22,40 @@ export async function preparedRows<T>(sequelize: Sequelize, name: string, text: 
     await cm.releaseConnection(conn);
   }
 }
+
+/**
+ * Coalesces reads of the same key: at most one query per key in flight per process, and a caller
+ * that arrives while one is in flight waits for the next one, never for one sent before it
+ * arrived — so every caller still sees every commit made before it asked (a revoked key is
+ * refused on the very next request), but a burst of requests for one key costs one round trip
+ * per query time instead of one per request.
+ */
+export function freshReads<T>(load: (key: string) => Promise<T>): (key: string) => Promise<T> {
+  const waiting = new Map<string, { resolve: (v: T) => void; reject: (e: unknown) => void }[]>();
+  const busy = new Set<string>();
+  async function drain(key: string): Promise<void> {
+    busy.add(key);
+    try {
+      for (;;) {
+        const batch = waiting.get(key);
+        if (!batch || batch.length === 0) break;
+        waiting.delete(key);
+        try {
+          const v = await load(key);
+          for (const w of batch) w.resolve(v);
+        } catch (e) {
+          for (const w of batch) w.reject(e);
+        }
+      }
+    } finally {
+      busy.delete(key);
+    }
+  }
+  return (key) =>
+    new Promise<T>((resolve, reject) => {
+      let q = waiting.get(key);
+      if (!q) waiting.set(key, (q = []));
+      q.push({ resolve, reject });
+      if (!busy.has(key)) void drain(key);
+    });
+}

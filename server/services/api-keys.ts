@@ -3,7 +3,7 @@
 // low-entropy secrets such as passwords).
 import { createHash, randomBytes, timingSafeEqual } from 'node:crypto';
 import { Op } from 'sequelize';
-import { preparedRows } from '../db/raw';
+import { freshReads, preparedRows } from '../db/raw';
 import { ApiKey } from '../models';
 import type { Principal, Scope } from './principal';
 
@@ -61,13 +61,18 @@ interface KeyRow {
 }
 const KEY_BY_PREFIX = 'SELECT id, organisation_id, secret_hash, scopes, expires_at, revoked_at, last_used_at FROM api_keys WHERE prefix = $1';
 
+// Concurrent requests with one key share a read issued after each of them arrived (see freshReads).
+const keyByPrefix = freshReads(async (prefix: string) => {
+  const rows = await preparedRows<KeyRow>(ApiKey.sequelize!, 'lotproof-api-key-by-prefix', KEY_BY_PREFIX, [prefix]);
+  return rows[0];
+});
+
 /** Checks a presented bearer secret against the stored hash; every request reads the row, so a revocation takes effect at once. */
 export async function verifyApiKey(secret: string, now = new Date()): Promise<KeyCheck> {
   const m = KEY_PATTERN.exec(secret);
   if (!m) return { ok: false, reason: 'malformed' };
   // A raw prepared statement (no model instance), still one read of the row per request.
-  const sequelize = ApiKey.sequelize!;
-  const key = (await preparedRows<KeyRow>(sequelize, 'lotproof-api-key-by-prefix', KEY_BY_PREFIX, [m[1]]))[0];
+  const key = await keyByPrefix(m[1]!);
   if (!key) return { ok: false, reason: 'unknown' };
   const presented = hashSecret(secret);
   const stored = Buffer.isBuffer(key.secret_hash) ? key.secret_hash : Buffer.from(key.secret_hash as unknown as string);

@@ -6,7 +6,7 @@ import { ENGINE_VERSION, evaluateLot, type LotData, type LotInput, type ProductS
 import type { components } from '../../shared/api/schema';
 import type { Config } from '../config';
 import { ConflictProblem, PayloadTooLargeProblem, UnprocessableProblem, ValidationProblem, type InvalidParam } from '../http/problem';
-import { preparedRows } from '../db/raw';
+import { freshReads, preparedRows } from '../db/raw';
 import { appendVerdict, keyReusedProblem, newVerdictId, SUBMIT_OPERATION, type AppendOutcome } from './ledger';
 import { readCsvLot } from './lot-csv';
 import type { Principal } from './principal';
@@ -120,6 +120,24 @@ const PRODUCT_SELECT = `SELECT p.id, p.sku, p.name, p.nominal_quantity, p.unit, 
 const PRODUCT_BY_ID = `${PRODUCT_SELECT} AND p.id = $2`;
 const PRODUCT_BY_SKU = `${PRODUCT_SELECT} AND p.sku = $2 AND p.archived_at IS NULL`;
 
+// Concurrent submissions naming one product share a read issued after each of them arrived.
+const productReaders = new WeakMap<Sequelize, (key: string) => Promise<ProductRow[]>>();
+function productReader(sequelize: Sequelize): (key: string) => Promise<ProductRow[]> {
+  let r = productReaders.get(sequelize);
+  if (!r) {
+    r = freshReads((key) => {
+      const a = key.indexOf('\n');
+      const b = key.indexOf('\n', a + 1);
+      const [by, org, value] = [key.slice(0, a), key.slice(a + 1, b), key.slice(b + 1)];
+      return by === 'id'
+        ? preparedRows<ProductRow>(sequelize, 'lotproof-product-by-id', PRODUCT_BY_ID, [org, value])
+        : preparedRows<ProductRow>(sequelize, 'lotproof-product-by-sku', PRODUCT_BY_SKU, [org, value]);
+    });
+    productReaders.set(sequelize, r);
+  }
+  return r;
+}
+
 interface FirstSampleRow {
   id: string;
   decision: string;
@@ -180,9 +198,7 @@ export async function submitLot(
   if (!productId && !sub.sku) {
     throw new ValidationProblem('name the product with productId or sku', [{ pointer: fieldPointer('sku'), detail: 'productId or sku is required' }]);
   }
-  const products = productId
-    ? await preparedRows<ProductRow>(sequelize, 'lotproof-product-by-id', PRODUCT_BY_ID, [org, productId])
-    : await preparedRows<ProductRow>(sequelize, 'lotproof-product-by-sku', PRODUCT_BY_SKU, [org, sub.sku]);
+  const products = await productReader(sequelize)(`${productId ? 'id' : 'sku'}\n${org}\n${productId ?? sub.sku}`);
   const product = products[0];
   if (!product || (sub.sku && product.sku !== sub.sku) || (first && product.id !== first.row.product_id)) {
     const which = productId && !first ? 'productId' : 'sku';
