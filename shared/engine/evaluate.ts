@@ -8,7 +8,7 @@ import { ENGINE_VERSION } from './version';
 import { engineError } from './errors';
 import { toNet, validateInput } from './net';
 import { rulebookFor } from './rulebooks/registry';
-import { describe } from './stats/describe';
+import { describeSeries } from './stats/describe';
 import { tTestFromSummary, zTestFromSummary } from './inference/meanTest';
 import { assumptionChecks } from './assumptions/checks';
 import { formatNumber, formatPValue } from './format';
@@ -51,7 +51,8 @@ export function evaluateLot(input: LotInput): EngineResult {
   const { net } = converted.data;
   const unit = input.product.unit;
   const qn = input.product.nominalQuantity;
-  const descriptive = describe(net, unit);
+  const described = describeSeries(net, unit);
+  const { descriptive } = described;
   const sd = descriptive.standardDeviation ?? 0;
 
   const judged = rulebook.judge({
@@ -100,7 +101,7 @@ export function evaluateLot(input: LotInput): EngineResult {
       : {}),
     criteria,
     statistics: { descriptive, meanTest: test.value },
-    assumptions: assumptionChecks(net, descriptive, testOpts),
+    assumptions: assumptionChecks(net, descriptive, testOpts, { minIndex: described.minIndex, maxIndex: described.maxIndex }),
     net: {
       unit,
       nominalQuantity: qn,

@@ -23,6 +23,7 @@ export function assumptionChecks(
   x: ArrayLike<number>,
   d: DescriptiveStatistics,
   test: { hypothesisedMean: number; alternative: Alternative },
+  extremes?: { minIndex: number; maxIndex: number },
 ): AssumptionCheck[] {
   const out: AssumptionCheck[] = [];
   const n = x.length;
@@ -108,7 +109,7 @@ export function assumptionChecks(
 
   // Grubbs
   const gTitle = 'Grubbs test for one outlier';
-  const g = grubbs(x, d.mean, d.standardDeviation ?? 0, { min: d.min, max: d.max });
+  const g = grubbs(x, d.mean, d.standardDeviation ?? 0, { min: d.min, max: d.max, ...extremes });
   if (g.value === null) out.push(notRun('grubbs', gTitle, g.reason));
   else {
     const v = g.value;

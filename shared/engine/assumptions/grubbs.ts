@@ -22,7 +22,7 @@ export function grubbs(
   x: ArrayLike<number>,
   mean: number,
   standardDeviation: number,
-  extent?: { min: number; max: number },
+  extent?: { min: number; max: number; minIndex?: number; maxIndex?: number },
 ): Maybe<GrubbsResult> {
   const n = x.length;
   if (n < 3) return none('Grubbs’ test needs at least 3 measurements');
@@ -42,7 +42,14 @@ export function grubbs(
   const maxDev = Math.max(dLo, dHi);
   // first pack whose deviation is the largest (either end when they tie)
   let index = 0;
-  for (let i = 0; i < n; i++) {
+  const known = extent?.minIndex !== undefined && extent.maxIndex !== undefined;
+  if (known) {
+    // the caller knows the first index of the min and of the max: the same pack the scan finds
+    const a = dLo === maxDev ? extent!.minIndex! : n;
+    const b = dHi === maxDev ? extent!.maxIndex! : n;
+    index = Math.min(a, b);
+  }
+  for (let i = 0; !known && i < n; i++) {
     const v = x[i]!;
     if ((v === lo && dLo === maxDev) || (v === hi && dHi === maxDev)) {
       index = i;

@@ -25,6 +25,34 @@ export function countBelow(x: Float64Array, limit: number, keep = 100): { count:
   return { count, indices };
 }
 
+/** countBelow for the T1 and the T2 limit in one pass over the values (the same counts and indices). */
+export function countBelowT1T2(
+  x: Float64Array,
+  t1Limit: number,
+  t2Limit: number,
+  keep = 100,
+): [{ count: number; indices: number[] }, { count: number; indices: number[] }] {
+  let c1 = 0;
+  let c2 = 0;
+  const i1: number[] = [];
+  const i2: number[] = [];
+  for (let i = 0; i < x.length; i++) {
+    const v = x[i]!;
+    if (v < t1Limit) {
+      c1++;
+      if (i1.length < keep) i1.push(i);
+    }
+    if (v < t2Limit) {
+      c2++;
+      if (i2.length < keep) i2.push(i);
+    }
+  }
+  return [
+    { count: c1, indices: i1 },
+    { count: c2, indices: i2 },
+  ];
+}
+
 /** Counts net values strictly above a limit. */
 export function countAbove(x: Float64Array, limit: number): number {
   let count = 0;

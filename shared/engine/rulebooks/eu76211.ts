@@ -25,7 +25,7 @@ import type { LotInput, RulebookInfo } from '../types';
 import type { Judgement, JudgeContext, Rulebook } from './types';
 import { engineError } from '../errors';
 import { tolerableNegativeError } from './tne';
-import { countBelow, meanCheckFactor, meanCriterion, sampleSizeCriterion, t1Criterion, t2Criterion } from './criteria';
+import { countBelow, countBelowT1T2, meanCheckFactor, meanCriterion, sampleSizeCriterion, t1Criterion, t2Criterion } from './criteria';
 
 export const EU_76_211_INFO: RulebookInfo = {
   id: 'eu-76-211',
@@ -111,8 +111,7 @@ function judge(ctx: JudgeContext): Judgement | { error: ReturnType<typeof engine
     const size = sampleSizeCriterion(n, lotSize, `(every pack) ${lotText}`);
     if (n < lotSize) return { ...base, criteria: [size], insufficient: true, additionalPacks: null };
     const allowed = fullCheckT1Allowance(n);
-    const t1 = countBelow(net, t1Limit);
-    const t2 = countBelow(net, t2Limit);
+    const [t1, t2] = countBelowT1T2(net, t1Limit, t2Limit);
     return {
       ...base,
       criteria: [
@@ -153,8 +152,7 @@ function judge(ctx: JudgeContext): Judgement | { error: ReturnType<typeof engine
     }
     const size = sampleSizeCriterion(ctx.currentCount, plan.second.n, `in the second sample ${lotText}`);
     if (ctx.currentCount < plan.second.n) return { ...base, criteria: [size], insufficient: true, additionalPacks: null };
-    const t1 = countBelow(net, t1Limit);
-    const t2 = countBelow(net, t2Limit);
+    const [t1, t2] = countBelowT1T2(net, t1Limit, t2Limit);
     const cumulative = ctx.previousCount + ctx.currentCount;
     return {
       ...base,
@@ -174,8 +172,7 @@ function judge(ctx: JudgeContext): Judgement | { error: ReturnType<typeof engine
   const required = Math.max(plan.first.n, plan.meanN);
   const size = sampleSizeCriterion(n, required, lotText);
   if (n < required) return { ...base, criteria: [size], insufficient: true, additionalPacks: null };
-  const t1 = countBelow(net, t1Limit);
-  const t2 = countBelow(net, t2Limit);
+  const [t1, t2] = countBelowT1T2(net, t1Limit, t2Limit);
   const larger = n > plan.first.n ? `; applied to all ${n} packs measured` : '';
   const planText =
     plan.kind === 'single'

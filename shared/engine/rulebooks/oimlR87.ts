@@ -14,7 +14,7 @@ import type { LotInput, RulebookInfo } from '../types';
 import type { Judgement, JudgeContext, Rulebook } from './types';
 import { engineError } from '../errors';
 import { tolerableNegativeError } from './tne';
-import { countBelow, meanCheckFactor, meanCriterion, sampleSizeCriterion, t1Criterion, t2Criterion } from './criteria';
+import { countBelowT1T2, meanCheckFactor, meanCriterion, sampleSizeCriterion, t1Criterion, t2Criterion } from './criteria';
 
 export const OIML_R87_INFO: RulebookInfo = {
   id: 'oiml-r87-2016',
@@ -69,8 +69,7 @@ function judge(ctx: JudgeContext): Judgement | { error: ReturnType<typeof engine
   const size = sampleSizeCriterion(n, required, lotText);
   if (n < required) return { ...base, criteria: [size], insufficient: true, additionalPacks: null };
   const everyPack = n === lotSize;
-  const t1 = countBelow(net, t1Limit);
-  const t2 = countBelow(net, t2Limit);
+  const [t1, t2] = countBelowT1T2(net, t1Limit, t2Limit);
   const planText = `by the plan for this lot size${n > required ? `, applied to all ${n} packs measured` : ''}`;
   return {
     ...base,
