@@ -20,8 +20,22 @@ function allFiniteNumbers(a: unknown[]): boolean {
 let scratch = Buffer.allocUnsafe(1 << 16);
 const digits = new Uint8Array(24);
 
+// Lookup tables for the digits of 0…999: INT[4·i…] is the length then the digits of i (no
+// leading zeros); FRAC[4·f…] is the count then the decimals of f/1000 without trailing zeros
+// (count 0 for f = 0).
+const INT = new Uint8Array(4000);
+const FRAC = new Uint8Array(4000);
+for (let i = 0; i < 1000; i++) {
+  const s = String(i);
+  INT[4 * i] = s.length;
+  for (let j = 0; j < s.length; j++) INT[4 * i + 1 + j] = s.charCodeAt(j);
+  const f = i === 0 ? '' : String(i).padStart(3, '0').replace(/0+$/, '');
+  FRAC[4 * i] = f.length;
+  for (let j = 0; j < f.length; j++) FRAC[4 * i + 1 + j] = f.charCodeAt(j);
+}
+
 /**
- * JSON.stringify(a) for an array of finite numbers, about three times faster for measurements
+ * JSON.stringify(a) for an array of finite numbers, several times faster for measurements
  * with up to three decimals (JSON.stringify of a million such doubles takes longer than parsing
  * them). Why it is the same text: let k = Math.round(v·1000). When |k| < 10^15 and k / 1000 === v,
  * v is the double nearest to the decimal D = k/1000 (k and 1000 are exact, and IEEE division
@@ -31,11 +45,13 @@ const digits = new Uint8Array(24);
  * plain notation because 0.001 ≤ |v| < 10^12 (or v = 0; -0 prints as 0 in both). Every other
  * value is written by JSON.stringify itself.
  */
-export function numberArrayJson(a: readonly number[]): string {
-  let buf = scratch;
+export function numberArrayJson(a: ArrayLike<number>): string {
+  const n = a.length;
+  // Typical measurements (up to 3 integer digits and 3 decimals, and a comma) need 8 bytes each.
+  let buf = scratch.length >= 8 * n + 64 ? scratch : (scratch = Buffer.allocUnsafe(8 * n + 64));
   let p = 0;
   buf[p++] = 0x5b; // [
-  for (let i = 0; i < a.length; i++) {
+  for (let i = 0; i < n; i++) {
     if (p + 40 > buf.length) {
       const bigger = Buffer.allocUnsafe(buf.length * 2);
       buf.copy(bigger, 0, 0, p);
@@ -52,32 +68,40 @@ export function numberArrayJson(a: readonly number[]): string {
       }
       let ip = Math.floor(ak / 1000);
       const fr = ak - ip * 1000;
-      let t = 0;
-      do {
-        const q = Math.floor(ip / 10);
-        digits[t++] = 0x30 + (ip - q * 10);
-        ip = q;
-      } while (ip > 0);
-      while (t > 0) buf[p++] = digits[--t]!;
-      if (fr !== 0) {
-        const d1 = Math.floor(fr / 100);
-        const d2 = Math.floor(fr / 10) % 10;
-        const d3 = fr % 10;
-        buf[p++] = 0x2e; // .
-        buf[p++] = 0x30 + d1;
-        if (d2 !== 0 || d3 !== 0) {
-          buf[p++] = 0x30 + d2;
-          if (d3 !== 0) buf[p++] = 0x30 + d3;
-        }
+      if (ip < 1000) {
+        const o = 4 * ip;
+        const len = INT[o]!;
+        buf[p] = INT[o + 1]!;
+        if (len > 1) buf[p + 1] = INT[o + 2]!;
+        if (len > 2) buf[p + 2] = INT[o + 3]!;
+        p += len;
+      } else {
+        let t = 0;
+        do {
+          const q = Math.floor(ip / 10);
+          digits[t++] = 0x30 + (ip - q * 10);
+          ip = q;
+        } while (ip > 0);
+        while (t > 0) buf[p++] = digits[--t]!;
+      }
+      const f = 4 * fr;
+      const flen = FRAC[f]!;
+      if (flen > 0) {
+        buf[p] = 0x2e; // .
+        buf[p + 1] = FRAC[f + 1]!;
+        if (flen > 1) buf[p + 2] = FRAC[f + 2]!;
+        if (flen > 2) buf[p + 3] = FRAC[f + 3]!;
+        p += flen + 1;
       }
     } else {
       p += buf.write(JSON.stringify(v), p, 'latin1');
     }
   }
   buf[p++] = 0x5d; // ]
+  const out = buf.toString('latin1', 0, p);
   // A big scratch buffer is not kept for the next, probably small, call.
   if (scratch.length > 1 << 24) scratch = Buffer.allocUnsafe(1 << 16);
-  return buf.toString('latin1', 0, p);
+  return out;
 }
 
 const SURROGATE = /[\uD800-\uDFFF]/;
@@ -138,7 +162,16 @@ function walk(value: unknown, out: string[]): void {
 export function canonicalJson(value: unknown): string {
   const out: string[] = [];
   walk(value, out);
-  return out.join('');
+  // A big piece (a lot's measurements) is concatenated, not copied again by join.
+  let s = '';
+  let from = 0;
+  for (let i = 0; i < out.length; i++) {
+    if (out[i]!.length > 1 << 16) {
+      s += out.slice(from, i).join('') + out[i]!;
+      from = i + 1;
+    }
+  }
+  return from === 0 ? out.join('') : s + out.slice(from).join('');
 }
 
 /** The reference implementation, for tests and for small values where speed does not matter. */
