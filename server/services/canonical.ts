@@ -9,14 +9,6 @@ import canonicalizeReference from 'canonicalize';
 
 export class CanonicalisationError extends Error {}
 
-function allFiniteNumbers(a: unknown[]): boolean {
-  for (let i = 0; i < a.length; i++) {
-    const v = a[i];
-    if (typeof v !== 'number' || !Number.isFinite(v)) return false;
-  }
-  return true;
-}
-
 let scratch = Buffer.allocUnsafe(1 << 16);
 const digits = new Uint8Array(24);
 
@@ -46,6 +38,13 @@ for (let i = 0; i < 1000; i++) {
  * value is written by JSON.stringify itself.
  */
 export function numberArrayJson(a: ArrayLike<number>): string {
+  const s = numberArrayJsonOrNull(a);
+  // not only finite numbers: JSON.stringify's text (null for a non-finite number)
+  return s ?? JSON.stringify(Array.from(a));
+}
+
+/** numberArrayJson(a), or null when a holds anything but finite numbers. */
+function numberArrayJsonOrNull(a: ArrayLike<unknown>): string | null {
   const n = a.length;
   // Typical measurements (up to 3 integer digits and 3 decimals, and a comma) need 8 bytes each.
   let buf = scratch.length >= 8 * n + 64 ? scratch : (scratch = Buffer.allocUnsafe(8 * n + 64));
@@ -58,7 +57,7 @@ export function numberArrayJson(a: ArrayLike<number>): string {
       buf = scratch = bigger;
     }
     if (i > 0) buf[p++] = 0x2c; // ,
-    const v = a[i]!;
+    const v = a[i] as number;
     const k = Math.round(v * 1000);
     if (k / 1000 === v && k < 1e15 && k > -1e15) {
       let ak = k;
@@ -94,6 +93,8 @@ export function numberArrayJson(a: ArrayLike<number>): string {
         p += flen + 1;
       }
     } else {
+      // (the fast path above takes only numbers: k / 1000 === v is false for anything else)
+      if (typeof v !== 'number' || !Number.isFinite(v)) return null;
       p += buf.write(JSON.stringify(v), p, 'latin1');
     }
   }
@@ -128,8 +129,9 @@ function walk(value: unknown, out: string[]): void {
     return;
   }
   if (Array.isArray(value)) {
-    if (value.length > 8 && allFiniteNumbers(value)) {
-      out.push(numberArrayJson(value as number[]));
+    const numbers = value.length > 8 ? numberArrayJsonOrNull(value) : null;
+    if (numbers !== null) {
+      out.push(numbers);
       return;
     }
     out.push('[');
