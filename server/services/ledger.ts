@@ -53,7 +53,7 @@ function values(rows: unknown[][], casts: string[], bind: unknown[]): string {
 
 /** The node-postgres client behind a Sequelize connection (what the connection manager hands out). */
 interface PgClient {
-  query(text: string, values?: unknown[]): Promise<PgResult | PgResult[]>;
+  query(text: string | { name: string; text: string; values: unknown[] }, values?: unknown[]): Promise<PgResult | PgResult[]>;
   escapeLiteral(s: string): string;
 }
 interface PgResult {
@@ -71,6 +71,20 @@ const MAX_BINDS = 60_000;
 /** Group-commit transactions in flight per process: the next batch links and seals while the one
  *  before it commits; the advisory lock still orders them, so the chain cannot fork. */
 const IN_FLIGHT = 2;
+
+/** The insert's text depends only on the batch's shape (how many rows of each table), so each
+ *  shape gets a named statement: every connection parses and plans it once, then only binds. */
+const statementNames = new Map<string, string>();
+const MAX_NAMED_STATEMENTS = 200;
+const MAX_NAMED_BINDS = 8_000;
+function statementName(sql: string): string | null {
+  let name = statementNames.get(sql);
+  if (name) return name;
+  if (statementNames.size >= MAX_NAMED_STATEMENTS || sql.length > MAX_NAMED_BINDS * 12) return null;
+  name = `lotproof_ledger_${statementNames.size + 1}`;
+  statementNames.set(sql, name);
+  return name;
+}
 
 interface ReadUnderLock {
   heads: { id: string; sequence: number | null; seal: string | null }[];
@@ -289,7 +303,8 @@ class Appender {
       const sent = statements.map((st) => {
         const [last, ...before] = [...st.parts].reverse();
         const sql = before.length ? `WITH ${before.reverse().map((p, i) => `w${i} AS (${p})`).join(', ')} ${last}` : last!;
-        return conn.query(sql, st.bind);
+        const name = statementName(sql);
+        return name ? conn.query({ name, text: sql, values: st.bind }) : conn.query(sql, st.bind);
       });
       const committed = conn.query('COMMIT');
       // Every query is queued on the connection already; wait for all, so none is left unobserved.
