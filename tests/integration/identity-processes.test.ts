@@ -16,7 +16,8 @@ const C = { 'X-Lotproof-Console': '1' };
 
 async function startSecondProcess(): Promise<{ child: ChildProcess; url: string }> {
   const port = await freePort();
-  const child = spawn('npx', ['tsx', 'server/bin/start.ts'], {
+  // node itself with the tsx loader (no npx wrapper), so that SIGTERM reaches the server and it stops.
+  const child = spawn(process.execPath, ['--import', 'tsx', 'server/bin/start.ts'], {
     env: {
       ...process.env,
       DATABASE_URL: testDatabaseUrl(),
