@@ -3,6 +3,7 @@
 // named statement once and then only binds and executes it, and no model instances are built.
 // Persistence only; the models stay for everything else.
 import type { Sequelize } from 'sequelize';
+import { perKeyBatches } from './per-key-batches';
 
 interface PgClient {
   query(q: { name: string; text: string; values: unknown[] }): Promise<{ rows: Record<string, unknown>[] }>;
@@ -31,31 +32,8 @@ export async function preparedRows<T>(sequelize: Sequelize, name: string, text: 
  * per query time instead of one per request.
  */
 export function freshReads<T>(load: (key: string) => Promise<T>): (key: string) => Promise<T> {
-  const waiting = new Map<string, { resolve: (v: T) => void; reject: (e: unknown) => void }[]>();
-  const busy = new Set<string>();
-  async function drain(key: string): Promise<void> {
-    busy.add(key);
-    try {
-      for (;;) {
-        const batch = waiting.get(key);
-        if (!batch || batch.length === 0) break;
-        waiting.delete(key);
-        try {
-          const v = await load(key);
-          for (const w of batch) w.resolve(v);
-        } catch (e) {
-          for (const w of batch) w.reject(e);
-        }
-      }
-    } finally {
-      busy.delete(key);
-    }
-  }
-  return (key) =>
-    new Promise<T>((resolve, reject) => {
-      let q = waiting.get(key);
-      if (!q) waiting.set(key, (q = []));
-      q.push({ resolve, reject });
-      if (!busy.has(key)) void drain(key);
-    });
+  return perKeyBatches(async (key) => {
+    const v = await load(key);
+    return () => v;
+  });
 }

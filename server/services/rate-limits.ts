@@ -3,6 +3,7 @@
 // credential, and failed sign-ins per account and per IP.
 import { RateLimiterPostgres, RateLimiterRes } from 'rate-limiter-flexible';
 import type { Sequelize } from 'sequelize';
+import { perKeyBatches } from '../db/per-key-batches';
 import type { RateLimitConfig } from '../config';
 import { RateLimitedProblem } from '../http/problem';
 import type { Principal } from './principal';
@@ -52,45 +53,20 @@ type Decision = { ok: boolean; state: LimitState };
  * the whole API near one request per commit.
  */
 function coalesced(l: RateLimiterPostgres): (key: string) => Promise<Decision> {
-  const waiting = new Map<string, { resolve: (d: Decision) => void; reject: (e: unknown) => void }[]>();
-  const busy = new Set<string>();
-
-  async function drain(key: string): Promise<void> {
-    busy.add(key);
+  return perKeyBatches(async (key, n) => {
+    let res: RateLimiterRes;
     try {
-      for (;;) {
-        const batch = waiting.get(key);
-        if (!batch || batch.length === 0) break;
-        waiting.delete(key);
-        const n = batch.length;
-        let res: RateLimiterRes;
-        try {
-          res = await l.consume(key, n);
-        } catch (e) {
-          if (!(e instanceof RateLimiterRes)) {
-            for (const w of batch) w.reject(e);
-            continue;
-          }
-          res = e;
-        }
-        const resetSeconds = Math.max(1, Math.ceil(res.msBeforeNext / 1000));
-        batch.forEach((w, i) => {
-          const consumed = res.consumedPoints - n + i + 1;
-          w.resolve({ ok: consumed <= l.points, state: { limit: l.points, remaining: Math.max(0, l.points - consumed), resetSeconds } });
-        });
-      }
-    } finally {
-      busy.delete(key);
+      res = await l.consume(key, n);
+    } catch (e) {
+      if (!(e instanceof RateLimiterRes)) throw e;
+      res = e; // over the limit: the library rejects with the counter's state
     }
-  }
-
-  return (key) =>
-    new Promise<Decision>((resolve, reject) => {
-      let q = waiting.get(key);
-      if (!q) waiting.set(key, (q = []));
-      q.push({ resolve, reject });
-      if (!busy.has(key)) void drain(key);
-    });
+    const resetSeconds = Math.max(1, Math.ceil(res.msBeforeNext / 1000));
+    return (i) => {
+      const consumed = res.consumedPoints - n + i + 1;
+      return { ok: consumed <= l.points, state: { limit: l.points, remaining: Math.max(0, l.points - consumed), resetSeconds } };
+    };
+  });
 }
 
 export interface RateLimits {

@@ -2,17 +2,15 @@
 // submit with an idempotency key (a retry returns the same verdict), page the list, look up the
 // seal, walk the ledger, and get a LotproofProblem naming the bad field.
 import { execFile } from 'node:child_process';
-import type { Server } from 'node:http';
-import type { AddressInfo } from 'node:net';
 import { join } from 'node:path';
 import { promisify } from 'node:util';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { buildTestApp, createTestKey, createTestOrganisation, type TestApp } from '../support/app';
+import { buildTestApp, createTestKey, createTestOrganisation, listenOnLoopback, type TestApp } from '../support/app';
 import { createProduct, lotBody } from '../support/lots';
 
 const run = promisify(execFile);
 let t: TestApp;
-let server: Server;
+let server: { url: string; close: () => Promise<void> };
 let baseUrl: string;
 let key: string;
 let sku: string;
@@ -22,13 +20,11 @@ beforeAll(async () => {
   const org = await createTestOrganisation('Python packer');
   key = await createTestKey(org.id, ['lots:submit', 'verdicts:read', 'products:write', 'audit:read']);
   sku = (await createProduct(t.app, key)).sku;
-  server = await new Promise<Server>((resolve) => {
-    const s = t.app.listen(0, '127.0.0.1', () => resolve(s));
-  });
-  baseUrl = `http://127.0.0.1:${(server.address() as AddressInfo).port}`;
+  server = await listenOnLoopback(t.app);
+  baseUrl = server.url;
 });
 afterAll(async () => {
-  await new Promise((r) => server.close(r));
+  await server.close();
   await t.close();
 });
 

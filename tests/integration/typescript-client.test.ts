@@ -1,13 +1,11 @@
 // The TypeScript client in clients/typescript, used the way a plant system would: over real HTTP.
-import type { Server } from 'node:http';
-import type { AddressInfo } from 'node:net';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createLotproofClient, submitLot, type LotSubmission } from '../../clients/typescript';
-import { buildTestApp, createTestKey, createTestOrganisation, type TestApp } from '../support/app';
+import { buildTestApp, createTestKey, createTestOrganisation, listenOnLoopback, type TestApp } from '../support/app';
 import { createProduct, lotBody } from '../support/lots';
 
 let t: TestApp;
-let server: Server;
+let server: { url: string; close: () => Promise<void> };
 let baseUrl: string;
 let key: string;
 let sku: string;
@@ -17,13 +15,11 @@ beforeAll(async () => {
   const org = await createTestOrganisation('Client packer');
   key = await createTestKey(org.id, ['lots:submit', 'verdicts:read', 'products:write']);
   sku = (await createProduct(t.app, key)).sku;
-  server = await new Promise<Server>((resolve) => {
-    const s = t.app.listen(0, '127.0.0.1', () => resolve(s));
-  });
-  baseUrl = `http://127.0.0.1:${(server.address() as AddressInfo).port}`;
+  server = await listenOnLoopback(t.app);
+  baseUrl = server.url;
 });
 afterAll(async () => {
-  await new Promise((r) => server.close(r));
+  await server.close();
   await t.close();
 });
 

@@ -54,3 +54,12 @@ export async function createTestKey(organisationId: string, scopes: Scope[], ext
   const { secret } = await issueApiKey({ organisationId, name: `test ${scopes.join(' ')}`, scopes, ...extra });
   return secret;
 }
+
+/** Serves the app on a free loopback port, for clients that speak real HTTP. */
+export async function listenOnLoopback(app: Express): Promise<{ url: string; close: () => Promise<void> }> {
+  const { createServer } = await import('node:http');
+  const server = createServer(app);
+  await new Promise<void>((resolve) => server.listen(0, '127.0.0.1', () => resolve()));
+  const port = (server.address() as import('node:net').AddressInfo).port;
+  return { url: `http://127.0.0.1:${port}`, close: () => new Promise<void>((r) => server.close(() => r())) };
+}
