@@ -3,7 +3,7 @@
 import { createHash } from 'node:crypto';
 import { QueryTypes, type Sequelize } from 'sequelize';
 import { ENGINE_VERSION, evaluateLot, type LotData, type LotInput, type ProductSpec, type Verdict as EngineVerdict } from '../../shared/engine';
-import type { components } from '../../shared/api/schema';
+import type { components, operations } from '../../shared/api/schema';
 import type { Config } from '../config';
 import { ConflictProblem, PayloadTooLargeProblem, UnprocessableProblem, ValidationProblem, type InvalidParam } from '../http/problem';
 import { freshReads, preparedRows } from '../db/raw';
@@ -17,21 +17,8 @@ import { recordLotUsage } from './usage';
 export type LotSubmission = components['schemas']['LotSubmission'];
 export const MAX_MEASUREMENTS = 1_000_000;
 
-export interface CsvQuery {
-  column?: string;
-  tareColumn?: string;
-  productId?: string;
-  sku?: string;
-  lotCode?: string;
-  line?: string;
-  packedAt?: string;
-  lotSize?: number;
-  testing?: 'destructive' | 'non-destructive';
-  measurementUnit?: LotSubmission['measurementUnit'];
-  measurementBasis?: 'gross' | 'net';
-  clientReference?: string;
-  firstSampleVerdictId?: string;
-}
+/** Lot fields of a text/csv submission, as query parameters (generated from the OpenAPI document). */
+export type CsvQuery = NonNullable<operations['submitLot']['parameters']['query']>;
 
 export type LotRequest =
   | { kind: 'json'; body: LotSubmission; query: Record<string, unknown> }
