@@ -3,7 +3,7 @@
 import { defineStore } from 'pinia';
 import { ref } from 'vue';
 import { api, call } from '../api/client';
-import { toProblem, type Problem } from '../api/problem';
+import { useRequestState } from './request-state';
 import type { components } from '../../../shared/api/schema';
 
 export type ApiKey = components['schemas']['ApiKey'];
@@ -19,19 +19,12 @@ export const SCOPE_TEXT: Record<Scope, string> = {
 
 export const useKeysStore = defineStore('keys', () => {
   const items = ref<ApiKey[]>([]);
-  const loading = ref(false);
-  const problem = ref<Problem | null>(null);
+  const { loading, problem, track } = useRequestState();
 
   async function load(): Promise<void> {
-    loading.value = true;
-    problem.value = null;
-    try {
+    await track(async () => {
       items.value = (await call(api.GET('/v1/api-keys'))).items;
-    } catch (err) {
-      problem.value = toProblem(err);
-    } finally {
-      loading.value = false;
-    }
+    });
   }
   async function create(input: { name: string; scopes: Scope[]; expiresAt: string | null }): Promise<{ key: ApiKey; secret: string }> {
     const res = await call(api.POST('/v1/api-keys', { body: input }));

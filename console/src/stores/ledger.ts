@@ -2,7 +2,7 @@
 import { defineStore } from 'pinia';
 import { ref } from 'vue';
 import { api, call } from '../api/client';
-import { toProblem, type Problem } from '../api/problem';
+import { useRequestState } from './request-state';
 import type { components } from '../../../shared/api/schema';
 
 export type LedgerCheck = components['schemas']['LedgerCheck'];
@@ -10,19 +10,12 @@ export type LedgerCheck = components['schemas']['LedgerCheck'];
 export const useLedgerStore = defineStore('ledger', () => {
   const result = ref<LedgerCheck | null>(null);
   const checkedAt = ref<Date | null>(null);
-  const loading = ref(false);
-  const problem = ref<Problem | null>(null);
+  const { loading, problem, track } = useRequestState();
   async function verify(): Promise<void> {
-    loading.value = true;
-    problem.value = null;
-    try {
+    await track(async () => {
       result.value = await call(api.GET('/v1/ledger/verify'));
       checkedAt.value = new Date();
-    } catch (err) {
-      problem.value = toProblem(err);
-    } finally {
-      loading.value = false;
-    }
+    });
   }
   return { result, checkedAt, loading, problem, verify };
 });

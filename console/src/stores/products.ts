@@ -2,7 +2,7 @@
 import { defineStore } from 'pinia';
 import { ref } from 'vue';
 import { api, call, idempotencyKey } from '../api/client';
-import { toProblem, type Problem } from '../api/problem';
+import { useRequestState } from './request-state';
 import type { components } from '../../../shared/api/schema';
 
 export type Product = components['schemas']['Product'];
@@ -11,14 +11,11 @@ export type ProductPatch = components['schemas']['ProductPatch'];
 
 export const useProductsStore = defineStore('products', () => {
   const items = ref<Product[]>([]);
-  const loading = ref(false);
+  const { loading, problem, track } = useRequestState();
   const loaded = ref(false);
-  const problem = ref<Problem | null>(null);
 
   async function load(): Promise<void> {
-    loading.value = true;
-    problem.value = null;
-    try {
+    await track(async () => {
       const all: Product[] = [];
       let cursor: string | undefined;
       do {
@@ -28,11 +25,7 @@ export const useProductsStore = defineStore('products', () => {
       } while (cursor && all.length < 2000);
       items.value = all;
       loaded.value = true;
-    } catch (err) {
-      problem.value = toProblem(err);
-    } finally {
-      loading.value = false;
-    }
+    });
   }
 
   async function ensure(): Promise<void> {

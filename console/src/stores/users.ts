@@ -2,7 +2,7 @@
 import { defineStore } from 'pinia';
 import { ref } from 'vue';
 import { api, call } from '../api/client';
-import { toProblem, type Problem } from '../api/problem';
+import { useRequestState } from './request-state';
 import type { components } from '../../../shared/api/schema';
 import type { Role } from '../lib/navigation';
 
@@ -12,21 +12,14 @@ export type Invitation = components['schemas']['Invitation'];
 export const useUsersStore = defineStore('users', () => {
   const users = ref<ConsoleUser[]>([]);
   const invitations = ref<Invitation[]>([]);
-  const loading = ref(false);
-  const problem = ref<Problem | null>(null);
+  const { loading, problem, track } = useRequestState();
 
   async function load(): Promise<void> {
-    loading.value = true;
-    problem.value = null;
-    try {
+    await track(async () => {
       const [u, i] = await Promise.all([call(api.GET('/v1/users')), call(api.GET('/v1/invitations'))]);
       users.value = u.items;
       invitations.value = i.items;
-    } catch (err) {
-      problem.value = toProblem(err);
-    } finally {
-      loading.value = false;
-    }
+    });
   }
   async function invite(email: string, role: Role): Promise<void> {
     const inv = await call(api.POST('/v1/invitations', { body: { email, role } }));

@@ -2,7 +2,7 @@
 import { defineStore } from 'pinia';
 import { ref } from 'vue';
 import { api, call } from '../api/client';
-import { toProblem, type Problem } from '../api/problem';
+import { useRequestState } from './request-state';
 import { apiQuery, type VerdictFilters } from '../lib/verdictFilters';
 import type { components } from '../../../shared/api/schema';
 
@@ -13,8 +13,7 @@ export type Recomputation = components['schemas']['Recomputation'];
 
 export const useVerdictsStore = defineStore('verdicts', () => {
   const items = ref<Verdict[]>([]);
-  const loading = ref(false);
-  const problem = ref<Problem | null>(null);
+  const { loading, problem, track } = useRequestState();
   /** Cursors of the pages seen so far: cursors[i] opens page i (page 0 has none). */
   const cursors = ref<(string | null)[]>([null]);
   const page = ref(0);
@@ -27,9 +26,7 @@ export const useVerdictsStore = defineStore('verdicts', () => {
       pageIndex = 0;
     }
     lastFilters = { ...filters };
-    loading.value = true;
-    problem.value = null;
-    try {
+    await track(async () => {
       const cursor = cursors.value[pageIndex] ?? null;
       const res = await call(api.GET('/v1/verdicts', { params: { query: apiQuery(filters, cursor) as never } }));
       items.value = res.items;
@@ -37,11 +34,7 @@ export const useVerdictsStore = defineStore('verdicts', () => {
       nextCursor.value = res.nextCursor ?? null;
       cursors.value[pageIndex + 1] = nextCursor.value;
       cursors.value.length = pageIndex + 2;
-    } catch (err) {
-      problem.value = toProblem(err);
-    } finally {
-      loading.value = false;
-    }
+    });
   }
 
   async function get(id: string): Promise<Verdict> {

@@ -3,7 +3,7 @@
 import { defineStore } from 'pinia';
 import { ref } from 'vue';
 import { api, call, idempotencyKey } from '../api/client';
-import { toProblem, type Problem } from '../api/problem';
+import { useRequestState } from './request-state';
 import type { components } from '../../../shared/api/schema';
 
 export type WebhookEndpoint = components['schemas']['WebhookEndpoint'];
@@ -13,19 +13,12 @@ export type WebhookEvent = components['schemas']['WebhookEvent'];
 
 export const useWebhooksStore = defineStore('webhooks', () => {
   const items = ref<WebhookEndpoint[]>([]);
-  const loading = ref(false);
-  const problem = ref<Problem | null>(null);
+  const { loading, problem, track } = useRequestState();
 
   async function load(): Promise<void> {
-    loading.value = true;
-    problem.value = null;
-    try {
+    await track(async () => {
       items.value = (await call(api.GET('/v1/webhooks'))).items;
-    } catch (err) {
-      problem.value = toProblem(err);
-    } finally {
-      loading.value = false;
-    }
+    });
   }
   async function create(body: WebhookInput) {
     const created = await call(api.POST('/v1/webhooks', { body, params: { header: { 'Idempotency-Key': idempotencyKey() } } }));
