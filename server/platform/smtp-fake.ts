@@ -5,16 +5,10 @@
 import { randomUUID } from 'node:crypto';
 import type { AddressInfo } from 'node:net';
 import { SMTPServer } from 'smtp-server';
+import type { components } from '../../shared/api/schema';
 
-export interface CapturedMail {
-  id: string;
-  receivedAt: string;
-  from: string;
-  to: string[];
-  subject: string;
-  text: string;
-  html: string | null;
-}
+/** A captured message, exactly as the development mailbox serves it (generated from the OpenAPI document). */
+export type CapturedMail = components['schemas']['DevMail'];
 
 export interface RunningSmtpFake {
   host: string;
