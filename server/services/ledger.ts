@@ -21,8 +21,8 @@ import { alertEmailFor, deliveriesFor, type EndpointSubscription } from './notif
 export interface PendingVerdict {
   verdictId: string;
   organisationId: string;
-  /** Canonical JSON of each content field of the record. */
-  parts: Map<string, string>;
+  /** Canonical JSON (UTF-8) of each content field of the record. */
+  parts: Map<string, Buffer>;
   /** The row's columns, except the chain and seal fields. */
   row: Omit<VerdictRow, 'sequence' | 'seal' | 'previous_seal' | 'signature' | 'kid' | 'recorded_at' | 'record'>;
   idempotency: { key: string; requestHash: string } | null;
@@ -226,7 +226,7 @@ class Appender {
         const h = head.get(it.organisationId)!;
         const chain: ChainPosition = { sequence: h.sequence + 1, previousSeal: h.seal, recordedAt: new Date().toISOString() };
         const record = assembleRecord(it.parts, chain);
-        const seal = createHash('sha256').update(record, 'utf8').digest('hex');
+        const seal = createHash('sha256').update(record).digest('hex');
         const signature = signSeal(key, seal);
         head.set(it.organisationId, { sequence: chain.sequence, seal });
         const row: VerdictRow = {

@@ -3,7 +3,7 @@
 // export all agree.
 import type { LotInput, Verdict as EngineVerdict } from '../../shared/engine';
 import type { components } from '../../shared/api/schema';
-import { canonicalJson } from './canonical';
+import { canonicalJson, canonicalJsonBytes, joinPieces } from './canonical';
 
 export type VerdictView = components['schemas']['Verdict'];
 export type SealedDocument = components['schemas']['SealedDocument'];
@@ -46,26 +46,28 @@ export interface ChainPosition {
 }
 
 /**
- * Canonical JSON of every content field, computed once outside the chain lock; `assembleRecord`
- * adds the chain fields under the lock without re-serialising a large lot.
+ * Canonical JSON (UTF-8 bytes) of every content field, computed once outside the chain lock;
+ * `assembleRecord` adds the chain fields under the lock without re-serialising a large lot.
  */
-export function canonicalContentParts(content: RecordContent): Map<string, string> {
-  const parts = new Map<string, string>();
-  for (const [k, v] of Object.entries(content)) parts.set(k, canonicalJson(v));
+export function canonicalContentParts(content: RecordContent): Map<string, Buffer> {
+  const parts = new Map<string, Buffer>();
+  for (const [k, v] of Object.entries(content)) parts.set(k, canonicalJsonBytes(v));
   return parts;
 }
 
-export function assembleRecord(parts: Map<string, string>, chain: ChainPosition): string {
-  const all = new Map(parts);
+/** The record's canonical JSON as UTF-8 bytes: what the seal hashes and the ledger stores. */
+export function assembleRecord(parts: Map<string, Buffer>, chain: ChainPosition): Buffer {
+  const all = new Map<string, string | Buffer>(parts);
   all.set('sequence', canonicalJson(chain.sequence));
   all.set('previousSeal', canonicalJson(chain.previousSeal));
   all.set('recordedAt', canonicalJson(chain.recordedAt));
   const keys = [...all.keys()].sort();
-  let out = '{';
+  const pieces: (string | Buffer)[] = ['{'];
   keys.forEach((k, i) => {
-    out += (i > 0 ? ',' : '') + JSON.stringify(k) + ':' + all.get(k)!;
+    pieces.push((i > 0 ? ',' : '') + JSON.stringify(k) + ':', all.get(k)!);
   });
-  return out + '}';
+  pieces.push('}');
+  return joinPieces(pieces);
 }
 
 /** A verdicts row as read back (the columns the views need; `record` only when asked for). */

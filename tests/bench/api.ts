@@ -20,7 +20,7 @@ const DURATION = Number(process.env.BENCH_SECONDS ?? 10);
 const CONNECTIONS = 32;
 // Knobs for investigating (all optional): BENCH_ONLY=bare,api,big runs a subset; BENCH_CPU_PROF=<dir>
 // writes a V8 CPU profile of the API process there; BENCH_WAITS=1 tallies PostgreSQL wait events
-// during the Lotproof run.
+// during the Lotproof run; BENCH_NODE_ARGS="--flag …" starts the API process with those Node flags.
 const ONLY = new Set((process.env.BENCH_ONLY ?? 'bare,api,big').split(','));
 const CPU_PROF = process.env.BENCH_CPU_PROF ?? '';
 const children: ChildProcess[] = [];
@@ -133,7 +133,7 @@ async function main() {
     DATABASE_URL: databaseUrl, PORT: String(apiPort), NODE_ENV: 'production', LOG_LEVEL: 'warn', LOTPROOF_SEED_DEMO: 'false',
     LOTPROOF_DATA_DIR: join(dir, 'data'), LOTPROOF_BODY_LIMIT_MB: '64', LOTPROOF_RUN_JOBS: 'false',
     LOTPROOF_RATE_LIMIT_PER_KEY: String(big >> 3), LOTPROOF_RATE_LIMIT_PER_ORG: String(big >> 3), LOTPROOF_RATE_LIMIT_PER_IP: String(big >> 3),
-  }, CPU_PROF ? ['--cpu-prof', '--cpu-prof-dir', CPU_PROF] : []);
+  }, [...(process.env.BENCH_NODE_ARGS ? process.env.BENCH_NODE_ARGS.split(' ') : []), ...(CPU_PROF ? ['--cpu-prof', '--cpu-prof-dir', CPU_PROF] : [])]);
 
   const lot = {
     sku: 'BENCH-500G', lotCode: 'B-1', line: 'Bench line', lotSize: 2400, testing: 'non-destructive', measurementUnit: 'g', measurementBasis: 'net',

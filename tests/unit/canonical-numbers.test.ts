@@ -1,6 +1,6 @@
 // The fast writer of number arrays must give exactly JSON.stringify's text (RFC 8785's number form).
 import { describe, expect, it } from 'vitest';
-import { canonicalJson, canonicalJsonReference, numberArrayJson } from '../../server/services/canonical';
+import { canonicalJson, canonicalJsonBytes, canonicalJsonReference, numberArrayJson } from '../../server/services/canonical';
 
 function rng(seed: number) {
   let s = seed >>> 0;
@@ -36,5 +36,21 @@ describe('numberArrayJson', () => {
     const r = rng(7);
     const lot = { measurements: Array.from({ length: 5000 }, () => Math.round((500 + r() * 8) * 100) / 100), tares: [1.5, 2] };
     expect(canonicalJson(lot)).toBe(canonicalJsonReference(lot));
+  });
+
+  it('gives as bytes exactly the UTF-8 of the reference package\'s text, also around non-Latin-1 text', () => {
+    const r = rng(11);
+    // Long arrays (the fast writer, both the buffer it keeps and the one it hands over), short
+    // ones, and strings outside Latin-1 (which V8 stores at two bytes per character) next to them.
+    for (const n of [3, 9, 5000, 200_000]) {
+      const doc = {
+        lot: { line: 'Linie Süd – Ω 3 𝄞', measurements: Array.from({ length: n }, () => Math.round((500 + r() * 8) * 1000) / 1000) },
+        sentence: 'mean ≥ Qn − 0.379 × s; μ₀',
+        nested: [{ z: 1, a: [0.5, -0, 1e21] }],
+      };
+      const bytes = canonicalJsonBytes(doc);
+      expect(bytes.equals(Buffer.from(canonicalJsonReference(doc), 'utf8'))).toBe(true);
+      expect(bytes.toString('utf8')).toBe(canonicalJson(doc));
+    }
   });
 });
