@@ -89,7 +89,9 @@ export function createApp(ctx: AppContext): Express {
   );
 
   const limit = ctx.config.bodyLimitBytes;
-  app.use(express.json({ limit, type: ['application/json', 'application/*+json'] }));
+  // The raw bytes of a JSON body stay on the request (a reference, not a copy): an Idempotency-Key
+  // fingerprints the body as sent rather than serialising a parsed million-value lot again.
+  app.use(express.json({ limit, type: ['application/json', 'application/*+json'], verify: (req, _res, buf) => void ((req as express.Request).rawBody = buf) }));
   app.use(express.text({ limit, type: ['text/csv', 'text/plain'] }));
   app.use((req, _res, next) => {
     const declared = Number(req.headers['content-length'] ?? 0);

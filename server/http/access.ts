@@ -11,6 +11,8 @@ import { ForbiddenProblem, UnauthorizedProblem } from './problem';
 declare module 'express-serve-static-core' {
   interface Request {
     principal?: Principal;
+    /** The bytes of a JSON body as received (set by the JSON body parser). */
+    rawBody?: Buffer;
   }
 }
 

@@ -84,7 +84,7 @@ export function verdictHandlers(ctx: AppContext): Handlers {
       const query = { ...(req.query as Record<string, unknown>) };
       const lotRequest = req.is('text/csv')
         ? { kind: 'csv' as const, text: typeof req.body === 'string' ? req.body : '', query: query as CsvQuery }
-        : { kind: 'json' as const, body: req.body, query };
+        : { kind: 'json' as const, body: req.body, raw: req.rawBody, query };
       const outcome = await submitLot(sequelize, config, req.principal!, lotRequest, idemKey(req));
       if (outcome.kind === 'created') res.setHeader('Location', `/v1/verdicts/${outcome.view.id}`);
       sendJsonText(res, outcome.status, outcome.body, outcome.kind === 'replayed');

@@ -21,7 +21,7 @@ export const MAX_MEASUREMENTS = 1_000_000;
 export type CsvQuery = NonNullable<operations['submitLot']['parameters']['query']>;
 
 export type LotRequest =
-  | { kind: 'json'; body: LotSubmission; query: Record<string, unknown> }
+  | { kind: 'json'; body: LotSubmission; /** the body's bytes as received, when it came over HTTP */ raw?: Buffer; query: Record<string, unknown> }
   | { kind: 'csv'; text: string; query: CsvQuery };
 
 interface Normalised {
@@ -78,9 +78,10 @@ function tooMany(n: number): PayloadTooLargeProblem {
   return new PayloadTooLargeProblem(`the lot has ${n > MAX_MEASUREMENTS ? `more than ${MAX_MEASUREMENTS}` : n} measurements; at most ${MAX_MEASUREMENTS.toLocaleString('en')} are accepted per lot`);
 }
 
+/** The fingerprint an Idempotency-Key is bound to: the body's bytes as sent (and for CSV the query). */
 function requestHash(req: LotRequest): string {
   const h = createHash('sha256');
-  if (req.kind === 'json') h.update('json\n').update(JSON.stringify(req.body));
+  if (req.kind === 'json') h.update('json\n').update(req.raw ?? JSON.stringify(req.body));
   else h.update('csv\n').update(JSON.stringify(Object.entries(req.query).sort())).update('\n').update(req.text);
   return h.digest('hex');
 }

@@ -417,8 +417,9 @@ export interface paths {
          *     `second-sample-required` verdict, set `firstSampleVerdictId`: the new verdict judges both
          *     samples together and links to the first.
          *
-         *     An `Idempotency-Key` makes a retry safe: the same key with the same body returns the
-         *     first response byte for byte; with another body it is a 422.
+         *     An `Idempotency-Key` makes a retry safe: the same key with the same body (the same
+         *     bytes: send a retry exactly as the first attempt) returns the first response byte for
+         *     byte; with another body it is a 422.
          *
          *     **Caution:** the verdict supports a release decision by the packer's responsible person;
          *     local weights-and-measures law and the competent authority prevail.

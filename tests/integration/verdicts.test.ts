@@ -193,6 +193,12 @@ describe('idempotency', () => {
     const other = await request(t.app).post('/v1/lots').set(auth()).set('Idempotency-Key', 'idem-30').send({ ...body, lotCode: 'OTHER' });
     expectProblem(other, 422);
     expect(other.body.type).toMatch(/idempotency-key-reused/);
+    // The key is bound to the body's bytes (as the API description says): a retry is sent as it
+    // was first sent; the same lot written with another key order or spacing is another body.
+    const respaced = await request(t.app).post('/v1/lots').set(auth()).set('Idempotency-Key', 'idem-30').set('Content-Type', 'application/json').send(JSON.stringify(body, null, 2));
+    expectProblem(respaced, 422);
+    const verbatim = await request(t.app).post('/v1/lots').set(auth()).set('Idempotency-Key', 'idem-30').set('Content-Type', 'application/json').send(JSON.stringify(body));
+    expect(verbatim.text).toBe(first.text);
   });
 
   it('creates exactly one verdict for concurrent retries with one key', async () => {
