@@ -53,4 +53,30 @@ describe('numberArrayJson', () => {
       expect(bytes.toString('utf8')).toBe(canonicalJson(doc));
     }
   });
+
+  it('matches the reference package on random nested documents (key order, escapes, index-like keys)', () => {
+    const r = rng(5);
+    const pick = <T>(xs: readonly T[]) => xs[Math.floor(r() * xs.length)]!;
+    const keyPool = ['a', 'b', 'A', 'é', 'z1', '10', '2', '01', '__proto__', 'ключ', '\u20ac', '\ud83d\ude00', ' ', '', 'line\nbreak', 'q"uote'];
+    const strPool = ['', 'plain', 'tab\t', 'ctl\u0001\u001f', 'quote " and \\', 'Ω≥μ−', '\ud83d\ude00 pair', '\u2028\u2029', '</script>'];
+    const numPool = [0, -0, 1, -1.5, 0.1, 1e21, 1e-7, 123456789.125, Number.MAX_VALUE, 5e-324, 503.14];
+    const make = (depth: number): unknown => {
+      const t = depth > 3 ? Math.floor(r() * 4) : Math.floor(r() * 6);
+      if (t === 0) return pick(strPool);
+      if (t === 1) return pick(numPool);
+      if (t === 2) return pick([true, false, null]);
+      if (t === 3) return r() < 0.5 ? pick(numPool) : pick(strPool);
+      if (t === 4) return Array.from({ length: Math.floor(r() * 5) }, () => make(depth + 1));
+      const o: Record<string, unknown> = {};
+      for (let i = Math.floor(r() * 6); i > 0; i--) Object.defineProperty(o, pick(keyPool), { value: make(depth + 1), enumerable: true, writable: true, configurable: true });
+      return o;
+    };
+    for (let i = 0; i < 3000; i++) {
+      const doc = { x: make(0), y: [make(1), make(1)] };
+      expect(canonicalJson(doc)).toBe(canonicalJsonReference(doc));
+    }
+    expect(() => canonicalJson({ s: 'lone \ud800' })).toThrow();
+    expect(() => canonicalJson({ n: Number.NaN })).toThrow();
+    expect(() => canonicalJson({ f: () => 1 })).toThrow();
+  });
 });
