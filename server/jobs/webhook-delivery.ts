@@ -1,10 +1,12 @@
 // Delivers one webhook: signs the stored payload per Standard Webhooks (webhook-id is the delivery
 // id, so receivers can drop duplicates), POSTs it, logs the attempt. A non-2xx answer or a network
-// error throws, and the queue retries with exponential backoff until the retry limit.
+// error throws, and the queue retries with exponential backoff until the retry limit. The target's
+// address is checked as it is connected to (webhook-post.ts).
 import { Webhook } from 'standardwebhooks';
 import { QueryTypes, type Sequelize } from 'sequelize';
 import type { Logger } from 'pino';
 import type { Config } from '../config';
+import { postWebhook, RefusedTarget } from './webhook-post';
 
 export interface JobDeps {
   sequelize: Sequelize;
@@ -46,24 +48,23 @@ export async function deliverWebhook(deps: JobDeps, deliveryId: string, lastAtte
   let statusCode: number | null = null;
   let error: string | null = null;
   try {
-    const res = await fetch(d.url, {
-      method: 'POST',
-      headers: {
+    const res = await postWebhook(
+      d.url,
+      {
         'content-type': 'application/json',
         'user-agent': 'Lotproof-Webhooks/1',
         'webhook-id': d.id,
         'webhook-timestamp': String(Math.floor(now.getTime() / 1000)),
         'webhook-signature': signature,
       },
-      body: d.payload,
-      redirect: 'manual',
-      signal: AbortSignal.timeout(config.verdicts.webhookTimeoutMs),
-    });
+      d.payload,
+      { timeoutMs: config.verdicts.webhookTimeoutMs, allowPrivate: config.verdicts.webhookAllowPrivateTargets },
+    );
     statusCode = res.status;
-    await res.body?.cancel().catch(() => {});
     if (res.status < 200 || res.status >= 300) error = `the receiver answered HTTP ${res.status}`;
   } catch (err) {
-    error = (err as Error).name === 'TimeoutError' ? `no answer within ${config.verdicts.webhookTimeoutMs} ms` : `could not connect: ${(err as Error).message}`;
+    const e = err as Error;
+    error = e.name === 'TimeoutError' ? `no answer within ${config.verdicts.webhookTimeoutMs} ms` : e instanceof RefusedTarget ? `refused: ${e.message}` : `could not connect: ${e.message}`;
   }
   const ms = performance.now() - started;
   if (!error) {

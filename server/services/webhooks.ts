@@ -29,16 +29,23 @@ function view(e: WebhookEndpoint): EndpointView {
   };
 }
 
+/** True for an IP address on loopback, link-local, private, shared, multicast or reserved ranges. */
+export function isPrivateAddress(ip: string): boolean {
+  const h = ip.replace(/^\[|\]$/g, '').toLowerCase();
+  if (isIP(h) === 4) {
+    const [a, b] = h.split('.').map(Number) as [number, number];
+    return a === 10 || a === 127 || a === 0 || (a === 169 && b === 254) || (a === 172 && b >= 16 && b <= 31) || (a === 192 && b === 168) ||
+      (a === 100 && b >= 64 && b <= 127) || (a === 198 && (b === 18 || b === 19)) || a >= 224;
+  }
+  if (isIP(h) === 6) return h === '::1' || h === '::' || h.startsWith('fc') || h.startsWith('fd') || h.startsWith('fe80') || h.startsWith('::ffff:') || h.startsWith('ff');
+  return false;
+}
+
 /** True for hosts on loopback, link-local or private networks (refused unless allowed by config). */
 export function isPrivateHost(hostname: string): boolean {
   const h = hostname.replace(/^\[|\]$/g, '').toLowerCase();
   if (h === 'localhost' || h.endsWith('.localhost') || h.endsWith('.local') || h.endsWith('.internal')) return true;
-  if (isIP(h) === 4) {
-    const [a, b] = h.split('.').map(Number) as [number, number];
-    return a === 10 || a === 127 || a === 0 || (a === 169 && b === 254) || (a === 172 && b >= 16 && b <= 31) || (a === 192 && b === 168) || (a === 100 && b >= 64 && b <= 127);
-  }
-  if (isIP(h) === 6) return h === '::1' || h === '::' || h.startsWith('fc') || h.startsWith('fd') || h.startsWith('fe80') || h.startsWith('::ffff:');
-  return false;
+  return isPrivateAddress(h);
 }
 
 function checkUrl(url: string, allowPrivate: boolean): void {
