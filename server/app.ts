@@ -15,7 +15,7 @@ import { authenticate, authorize } from './http/access';
 import { createMeter } from './http/metering';
 import { fixedHeaders } from './http/fixed-headers';
 import { memoiseValidatorRouteRegexps } from './http/route-regexp-cache';
-import { registerSessionResolver } from './http/session-auth';
+import { IDLE_MINUTES_LOCAL, registerSessionResolver } from './http/session-auth';
 import type { AppContext } from './http/context';
 import { notFoundHandler, PayloadTooLargeProblem, problemHandler } from './http/problem';
 import { allHandlers } from './routes';
@@ -100,6 +100,7 @@ export function createApp(ctx: AppContext): Express {
   });
 
   // Console sessions (cookie) besides bearer keys; then rate limits and usage for every API request.
+  app.locals[IDLE_MINUTES_LOCAL] = ctx.config.sessions.idleMinutes;
   registerSessionResolver();
   app.use(cookieParser());
   const meter = createMeter(ctx);

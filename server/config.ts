@@ -71,6 +71,8 @@ export interface SmtpConfig {
 
 export interface SessionConfig {
   ttlHours: number;
+  /** A session unused for this long has ended (an idle timeout besides the absolute lifetime). */
+  idleMinutes: number;
   invitationTtlHours: number;
   passwordResetTtlMinutes: number;
 }
@@ -183,6 +185,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     },
     sessions: {
       ttlHours: int(env, 'LOTPROOF_SESSION_TTL_HOURS', 12, 1, 24 * 30),
+      idleMinutes: int(env, 'LOTPROOF_SESSION_IDLE_MINUTES', 30, 1, 24 * 60),
       invitationTtlHours: int(env, 'LOTPROOF_INVITATION_TTL_HOURS', 168, 1, 24 * 30),
       passwordResetTtlMinutes: int(env, 'LOTPROOF_PASSWORD_RESET_TTL_MINUTES', 60, 5, 24 * 60),
     },

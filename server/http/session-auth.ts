@@ -30,6 +30,9 @@ export function clearSessionCookie(res: Response, publicUrl: string): void {
   res.clearCookie(SESSION_COOKIE, { httpOnly: true, sameSite: 'strict', secure: publicUrl.startsWith('https:'), path: '/' });
 }
 
+/** Where an app keeps its session idle timeout (app.locals), set by createApp from its configuration. */
+export const IDLE_MINUTES_LOCAL = 'sessionIdleMinutes';
+
 let registered = false;
 /** Registers the session resolver with the access layer (once per process). */
 export function registerSessionResolver(): void {
@@ -38,7 +41,7 @@ export function registerSessionResolver(): void {
   addPrincipalResolver(async (req) => {
     const token = cookieToken(req);
     if (!token) return null;
-    const found = await resolveSession(token);
+    const found = await resolveSession(token, Number(req.app.locals[IDLE_MINUTES_LOCAL] ?? 30));
     if (!found) return null;
     if (UNSAFE.has(req.method) && req.headers[CONSOLE_HEADER] !== '1') {
       throw new ForbiddenProblem('A console request that changes something must carry the header X-Lotproof-Console: 1 (protection against cross-site requests).');

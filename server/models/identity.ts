@@ -23,6 +23,7 @@ export class Session extends Model {
   declare expiresAt: Date;
   declare revokedAt: Date | null;
   declare ip: string | null;
+  declare lastSeenAt: Date;
 }
 
 export class Invitation extends Model {
@@ -98,6 +99,7 @@ export function initIdentityModels(sequelize: Sequelize): void {
       expiresAt: { type: DataTypes.DATE, allowNull: false },
       revokedAt: { type: DataTypes.DATE },
       ip: { type: DataTypes.TEXT },
+      lastSeenAt: { type: DataTypes.DATE, allowNull: false, defaultValue: DataTypes.NOW },
     },
     { sequelize, tableName: 'sessions' },
   );

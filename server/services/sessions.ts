@@ -71,13 +71,24 @@ export interface ResolvedSession {
   view: SessionView;
 }
 
-/** The live session for a cookie value, or null when it is unknown, expired, revoked or its user removed. */
-export async function resolveSession(token: string, now = new Date()): Promise<ResolvedSession | null> {
+/** last_seen_at is written at most this often per session (not on every request). */
+const SEEN_RESOLUTION_MS = 60_000;
+
+/**
+ * The live session for a cookie value, or null when it is unknown, expired, idle for longer than
+ * idleMinutes, revoked, or its user removed. A live session is marked as seen now.
+ */
+export async function resolveSession(token: string, idleMinutes: number, now = new Date()): Promise<ResolvedSession | null> {
   if (!TOKEN_PATTERN.test(token)) return null;
-  const session = await Session.findOne({ where: { tokenHash: hashToken(token), revokedAt: null, expiresAt: { [Op.gt]: now } } });
+  const session = await Session.findOne({
+    where: { tokenHash: hashToken(token), revokedAt: null, expiresAt: { [Op.gt]: now }, lastSeenAt: { [Op.gt]: new Date(now.getTime() - idleMinutes * 60_000) } },
+  });
   if (!session) return null;
   const user = await User.findOne({ where: { id: session.userId, removedAt: null } });
   if (!user) return null;
+  if (now.getTime() - session.lastSeenAt.getTime() >= SEEN_RESOLUTION_MS) {
+    await Session.update({ lastSeenAt: now }, { where: { id: session.id, lastSeenAt: { [Op.lt]: now } } });
+  }
   return {
     principal: { organisationId: user.organisationId, kind: 'session', scopes: [], role: user.role as Role, userId: user.id, sessionId: session.id },
     view: await viewOf(user, session),

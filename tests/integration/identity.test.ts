@@ -146,6 +146,27 @@ describe('sessions', () => {
     expect((await request(t.app).get('/v1/session').set('Cookie', expired)).status).toBe(401);
   });
 
+  it('ends a session left unused for longer than the idle timeout, and keeps one in use alive', async () => {
+    const { Session } = await import('../../server/models');
+    const idle = await sessionCookieFor(admin, 12);
+    const busy = await sessionCookieFor(admin, 12);
+    const token = (c: string) => c.slice('lotproof_session='.length);
+    const { hashToken } = await import('../../server/services/secrets');
+    const minutesAgo = (m: number) => new Date(Date.now() - m * 60_000);
+    // 31 minutes without a request (the default idle timeout is 30): ended
+    await Session.update({ lastSeenAt: minutesAgo(31) }, { where: { tokenHash: hashToken(token(idle)) } });
+    expect((await request(t.app).get('/v1/session').set('Cookie', idle)).status).toBe(401);
+    // 29 minutes: still alive, and the request marks it as seen now, so it lives on
+    await Session.update({ lastSeenAt: minutesAgo(29) }, { where: { tokenHash: hashToken(token(busy)) } });
+    expect((await request(t.app).get('/v1/session').set('Cookie', busy)).status).toBe(200);
+    const seen = await Session.findOne({ where: { tokenHash: hashToken(token(busy)) } });
+    expect(Date.now() - seen!.lastSeenAt.getTime()).toBeLessThan(60_000);
+    // a shorter idle timeout from the configuration applies
+    const strict = variant({ sessions: { ...t.ctx.config.sessions, idleMinutes: 5 } });
+    await Session.update({ lastSeenAt: minutesAgo(6) }, { where: { tokenHash: hashToken(token(busy)) } });
+    expect((await request(strict.app).get('/v1/session').set('Cookie', busy)).status).toBe(401);
+  });
+
   it('sets a Secure cookie when the public URL is https', async () => {
     const https = variant({ publicUrl: 'https://lotproof.example' });
     const user = await createTestUser(org.id, 'auditor');
