@@ -65,7 +65,9 @@ describe('identity configuration', () => {
   it('has working defaults and turns the SMTP fake off in production and when SMTP_HOST is set', () => {
     const dev = loadConfig({ NODE_ENV: 'development' });
     expect(dev.smtp).toMatchObject({ host: '127.0.0.1', port: 4725, secure: false, fake: true });
-    expect(dev.sessions).toEqual({ ttlHours: 12, invitationTtlHours: 168, passwordResetTtlMinutes: 60 });
+    expect(dev.sessions).toEqual({ ttlHours: 12, idleMinutes: 30, invitationTtlHours: 168, passwordResetTtlMinutes: 60 });
+    expect(loadConfig({ LOTPROOF_SESSION_IDLE_MINUTES: '15' }).sessions.idleMinutes).toBe(15);
+    expect(() => loadConfig({ LOTPROOF_SESSION_IDLE_MINUTES: '0' })).toThrow(/LOTPROOF_SESSION_IDLE_MINUTES/);
     expect(dev.rateLimits.perKeyPerMinute).toBeGreaterThanOrEqual(1000);
     expect(loadConfig({ NODE_ENV: 'production' }).smtp.fake).toBe(false);
     expect(loadConfig({ NODE_ENV: 'production', LOTPROOF_SMTP_FAKE: 'true' }).smtp.fake).toBe(false);
