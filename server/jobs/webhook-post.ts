@@ -57,19 +57,14 @@ export function postWebhook(url: string, headers: Record<string, string>, body: 
       },
       (res) => {
         res.resume();
-        res.on('end', () => {
-          clearTimeout(timer);
-          resolve({ status: res.statusCode ?? 0 });
-        });
+        res.on('end', () => resolve({ status: res.statusCode ?? 0 }));
         res.on('error', reject);
       },
     );
     // The whole exchange, from connecting to the end of the answer, within the timeout.
     const timer = setTimeout(() => req.destroy(Object.assign(new Error(`no answer within ${opts.timeoutMs} ms`), { name: 'TimeoutError' })), opts.timeoutMs);
-    req.on('error', (err) => {
-      clearTimeout(timer);
-      reject(err);
-    });
+    req.on('close', () => clearTimeout(timer));
+    req.on('error', reject);
     req.end(body);
   });
 }
