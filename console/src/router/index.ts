@@ -3,6 +3,7 @@
 import { createRouter, createWebHistory, type RouteRecordRaw } from 'vue-router';
 import { homeFor, NAV_ITEMS, type Role } from '../lib/navigation';
 import { useSessionStore } from '../stores/session';
+import { onUnauthorised } from '../api/client';
 
 declare module 'vue-router' {
   interface RouteMeta {
@@ -54,6 +55,14 @@ router.beforeEach(async (to) => {
   if (!session.role) return { name: 'sign-in', query: to.fullPath !== '/' ? { next: to.fullPath } : {} };
   if (to.name === 'home' || !(to.meta.roles ?? []).includes(session.role)) return { name: homeFor(session.role) };
   return true;
+});
+
+// A call that comes back 401 means the session has ended (signed out elsewhere, revoked, or idle
+// too long): the page goes to sign-in, which says so and comes back here afterwards.
+onUnauthorised(() => {
+  const here = router.currentRoute.value;
+  if (here.meta.public) return;
+  void router.push({ name: 'sign-in', query: { next: here.fullPath, ended: '1' } });
 });
 
 router.afterEach((to) => {
