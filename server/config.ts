@@ -13,6 +13,8 @@ export interface Config {
   embeddedPgPort: number;
   /** Folder for local state: the embedded cluster, the signing key, demo credentials. */
   dataDir: string;
+  /** AES-256 key for secrets stored encrypted (LOTPROOF_SECRETS_KEY); null: <dataDir>/secrets-key. */
+  secretsKey: Buffer | null;
   /** Largest accepted request body, in bytes (JSON and CSV). */
   bodyLimitBytes: number;
   /** Public base URL used in links (e-mails, docs "servers"). */
@@ -153,6 +155,13 @@ function bool(env: NodeJS.ProcessEnv, name: string, fallback: boolean): boolean 
 
 export const DEFAULT_PORT = 4780;
 
+function secretsKeyOf(raw: string | undefined): Buffer | null {
+  if (!raw) return null;
+  const key = Buffer.from(raw.trim(), 'base64');
+  if (key.length !== 32) throw new ConfigError('LOTPROOF_SECRETS_KEY must be 32 bytes, base64-encoded (e.g. openssl rand -base64 32)');
+  return key;
+}
+
 export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
   const host = env.HOST || '127.0.0.1';
   const port = int(env, 'PORT', DEFAULT_PORT, 0, 65535);
@@ -167,6 +176,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     databaseUrl,
     embeddedPgPort: int(env, 'LOTPROOF_PG_PORT', 25480, 1024, 65535),
     dataDir: resolve(env.LOTPROOF_DATA_DIR || '.data'),
+    secretsKey: secretsKeyOf(env.LOTPROOF_SECRETS_KEY),
     bodyLimitBytes: int(env, 'LOTPROOF_BODY_LIMIT_MB', 40, 1, 1024) * 1024 * 1024,
     publicUrl: (env.LOTPROOF_PUBLIC_URL || `http://${host}:${port}`).replace(/\/$/, ''),
     trustProxy: parseTrustProxy(env.LOTPROOF_TRUST_PROXY),

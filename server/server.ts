@@ -8,6 +8,8 @@ import { migrate } from './db/migrate';
 import type { AppContext } from './http/context';
 import { startJobs, type RunningJobs } from './jobs';
 import { currentSigningKey, publishSigningKey } from './services/signing-keys';
+import { secretBox } from './services/secret-box';
+import { sealClearWebhookSecrets } from './services/webhooks';
 
 export interface RunningServer {
   url: string;
@@ -23,6 +25,8 @@ export async function startServer(config: Config & { databaseUrl: string }, logg
   const ctx: AppContext = { config, db, logger };
   // The seal signing key: read (or created) now, so a bad LOTPROOF_SIGNING_KEY stops the start.
   await publishSigningKey(db.sequelize, currentSigningKey(config));
+  // Webhook secrets stored in clear by an earlier version are sealed now (a bad key stops the start).
+  await sealClearWebhookSecrets(db.sequelize, secretBox(config));
   const app = createApp(ctx);
   const jobs: RunningJobs | null = config.verdicts.runJobs ? await startJobs(ctx) : null;
   const server = await new Promise<Server>((resolve, reject) => {

@@ -7,6 +7,8 @@ import { QueryTypes, type Sequelize } from 'sequelize';
 import type { Logger } from 'pino';
 import type { Config } from '../config';
 import { postWebhook, RefusedTarget } from './webhook-post';
+import { secretBox } from '../services/secret-box';
+import { openWebhookSecret } from '../services/webhooks';
 
 export interface JobDeps {
   sequelize: Sequelize;
@@ -19,9 +21,9 @@ export class DeliveryFailed extends Error {}
 export async function deliverWebhook(deps: JobDeps, deliveryId: string, lastAttempt: boolean): Promise<void> {
   const { sequelize, config } = deps;
   const rows = await sequelize.query<{
-    id: string; payload: string; status: string; attempts: number; url: string; secret: string; enabled: boolean; deleted_at: Date | null;
+    id: string; payload: string; status: string; attempts: number; endpoint_id: string; url: string; secret: string; enabled: boolean; deleted_at: Date | null;
   }>(
-    `SELECT d.id, d.payload, d.status, d.attempts, e.url, e.secret, e.enabled, e.deleted_at
+    `SELECT d.id, d.payload, d.status, d.attempts, e.id AS endpoint_id, e.url, e.secret, e.enabled, e.deleted_at
      FROM webhook_deliveries d JOIN webhook_endpoints e ON e.id = d.endpoint_id WHERE d.id = $1`,
     { bind: [deliveryId], type: QueryTypes.SELECT },
   );
@@ -43,7 +45,7 @@ export async function deliverWebhook(deps: JobDeps, deliveryId: string, lastAtte
     return;
   }
   const now = new Date();
-  const signature = new Webhook(d.secret).sign(d.id, now, d.payload);
+  const signature = new Webhook(openWebhookSecret(secretBox(config), d.endpoint_id, d.secret)).sign(d.id, now, d.payload);
   const started = performance.now();
   let statusCode: number | null = null;
   let error: string | null = null;

@@ -9,6 +9,7 @@ import { submitLot, type CsvQuery } from '../services/lots';
 import { archiveProduct, createProduct, getProduct, listProducts, updateProduct } from '../services/products';
 import { exportDocument, lookupSeal, verifyDocument, verifyLedger } from '../services/seals';
 import { jwks } from '../services/signing-keys';
+import { secretBox } from '../services/secret-box';
 import { getVerdict, isVerdictSort, listVerdicts, recomputeVerdict, type VerdictFilter } from '../services/verdicts';
 import {
   createWebhook,
@@ -139,10 +140,12 @@ export function verdictHandlers(ctx: AppContext): Handlers {
     },
     createWebhook: async (req, res) => {
       const p = req.principal!;
+      const box = secretBox(config);
+      // (the reply shows the signing secret once; a replay of it is kept sealed too)
       const r = await idempotent(sequelize, p.organisationId, 'createWebhook', idemKey(req), req.body, async () => {
-        const v = await createWebhook(p, req.body, allowPrivate);
+        const v = await createWebhook(p, req.body, allowPrivate, box);
         return { status: 201, value: v, resourceId: v.id };
-      });
+      }, box);
       sendStored(res, r);
     },
     getWebhook: async (req, res) => {

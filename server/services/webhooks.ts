@@ -11,6 +11,8 @@ import { decodeCursor, encodeCursor } from './cursor';
 import { ledgerEvents } from './ledger';
 import { TEST_EVENT } from './notifications';
 import type { Principal } from './principal';
+import { isSealed, type SecretBox } from './secret-box';
+import { idempotentReplyContext } from './idempotency';
 
 type EndpointView = components['schemas']['WebhookEndpoint'];
 type DeliveryView = components['schemas']['WebhookDelivery'];
@@ -65,17 +67,52 @@ export function newWebhookSecret(): string {
   return `whsec_${randomBytes(32).toString('base64')}`;
 }
 
-export async function createWebhook(principal: Principal, input: WebhookInput, allowPrivate: boolean): Promise<EndpointView & { secret: string }> {
+/** Where an endpoint's signing secret is bound (the associated data of its sealed form). */
+export function webhookSecretContext(endpointId: string): string {
+  return `webhook-secret:${endpointId}`;
+}
+
+/** The endpoint's signing secret in clear, from its stored (sealed, or from before sealing, clear) form. */
+export function openWebhookSecret(box: SecretBox, endpointId: string, stored: string): string {
+  return isSealed(stored) ? box.open(stored, webhookSecretContext(endpointId)) : stored;
+}
+
+/**
+ * Seals what versions before sealing stored in clear: endpoints' signing secrets and the stored
+ * replies of idempotent endpoint creations (which show the secret). Run at start; idempotent.
+ */
+export async function sealClearWebhookSecrets(sequelize: Sequelize, box: SecretBox): Promise<number> {
+  const rows = await sequelize.query<{ id: string; secret: string }>("SELECT id, secret FROM webhook_endpoints WHERE secret NOT LIKE 'sealed:%'", { type: QueryTypes.SELECT });
+  for (const r of rows) {
+    await sequelize.query('UPDATE webhook_endpoints SET secret = $2 WHERE id = $1 AND secret = $3', { bind: [r.id, box.seal(r.secret, webhookSecretContext(r.id)), r.secret] });
+  }
+  const replies = await sequelize.query<{ organisation_id: string; key: string; response: string }>(
+    "SELECT organisation_id, key, response FROM idempotency_records WHERE operation = 'createWebhook' AND response NOT LIKE 'sealed:%'",
+    { type: QueryTypes.SELECT },
+  );
+  for (const r of replies) {
+    await sequelize.query("UPDATE idempotency_records SET response = $3 WHERE organisation_id = $1 AND operation = 'createWebhook' AND key = $2 AND response = $4", {
+      bind: [r.organisation_id, r.key, box.seal(r.response, idempotentReplyContext(r.organisation_id, 'createWebhook', r.key)), r.response],
+    });
+  }
+  return rows.length + replies.length;
+}
+
+/** Creates an endpoint; its signing secret is returned this once and stored sealed. */
+export async function createWebhook(principal: Principal, input: WebhookInput, allowPrivate: boolean, box: SecretBox): Promise<EndpointView & { secret: string }> {
   checkUrl(input.url, allowPrivate);
+  const id = randomUUID();
+  const secret = newWebhookSecret();
   const e = await WebhookEndpoint.create({
+    id,
     organisationId: principal.organisationId,
     url: input.url,
     events: [...new Set(input.events)],
     description: input.description ?? '',
     enabled: input.enabled ?? true,
-    secret: newWebhookSecret(),
+    secret: box.seal(secret, webhookSecretContext(id)),
   });
-  return { ...view(e), secret: e.secret };
+  return { ...view(e), secret };
 }
 
 async function find(principal: Principal, id: string): Promise<WebhookEndpoint> {

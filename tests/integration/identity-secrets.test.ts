@@ -1,5 +1,5 @@
 // Secrets never appear in logs, error bodies or the database in clear: API keys, passwords,
-// session tokens, invitation and reset tokens. Logs are captured at the most verbose level (SQL too).
+// session tokens, invitation and reset tokens, webhook signing secrets (stored sealed). Logs are captured at the most verbose level (SQL too).
 import { Writable } from 'node:stream';
 import { QueryTypes } from 'sequelize';
 import request from 'supertest';
@@ -19,6 +19,7 @@ const logs: string[] = [];
 const secrets = new Map<string, string>();
 const bodies: string[] = [];
 const C = { 'X-Lotproof-Console': '1' };
+let hookReplay: { first: string; again: string };
 
 function keep(res: request.Response): request.Response {
   bodies.push(res.text ?? '');
@@ -46,6 +47,13 @@ beforeAll(async () => {
   const signIn = keep(await request(app).post('/v1/session').send({ email: admin.email, password: TEST_PASSWORD }));
   const cookie = ([] as string[]).concat(signIn.headers['set-cookie'] ?? [])[0]!.split(';')[0]!;
   secrets.set('session token', cookie.split('=')[1]!);
+
+  // A webhook endpoint's signing secret (shown once; with an Idempotency-Key its reply is kept for replays).
+  const hookBody = { url: 'https://receiver.example/lotproof', events: ['verdict.created'] };
+  const hook = keep(await request(app).post('/v1/webhooks').set('Cookie', cookie).set(C).set('Idempotency-Key', 'secret-hook-1').send(hookBody));
+  secrets.set('webhook signing secret', hook.body.secret);
+  secrets.set('webhook signing secret body', String(hook.body.secret).slice('whsec_'.length));
+  hookReplay = { first: hook.text, again: (await request(app).post('/v1/webhooks').set('Cookie', cookie).set(C).set('Idempotency-Key', 'secret-hook-1').send(hookBody)).text };
 
   const made = await request(app).post('/v1/api-keys').set('Cookie', cookie).set(C).send({ name: 'fresh', scopes: ['verdicts:read'] });
   const secret: string = made.body.secret;
@@ -123,6 +131,11 @@ describe('secrets at rest and in transit', () => {
       }
     }
     expect(hits).toEqual([]);
+  });
+
+  it('replays an idempotent webhook creation with its secret although the stored reply is sealed', () => {
+    expect(JSON.parse(hookReplay.first).secret).toMatch(/^whsec_/);
+    expect(hookReplay.again).toBe(hookReplay.first);
   });
 
   it('stores passwords as scrypt with a per-user salt', async () => {

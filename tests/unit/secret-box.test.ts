@@ -1,0 +1,42 @@
+// Secrets stored sealed (AES-256-GCM, NIST SP 800-38D, via node:crypto): they open only unaltered,
+// in the place they were sealed for, under the key they were sealed with.
+import { mkdtempSync, readFileSync, statSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { randomBytes } from 'node:crypto';
+import { describe, expect, it } from 'vitest';
+import { loadConfig } from '../../server/config';
+import { isSealed, secretBox } from '../../server/services/secret-box';
+
+describe('secretBox', () => {
+  it('opens what it sealed, and nothing altered, moved or sealed under another key', () => {
+    const box = secretBox({ dataDir: '/nonexistent', secretsKey: randomBytes(32) });
+    const sealed = box.seal('whsec_c2VjcmV0', 'webhook-secret:1');
+    expect(isSealed(sealed)).toBe(true);
+    expect(sealed).not.toContain('c2VjcmV0');
+    expect(box.open(sealed, 'webhook-secret:1')).toBe('whsec_c2VjcmV0');
+    expect(box.seal('same', 'x')).not.toBe(box.seal('same', 'x')); // a fresh IV each time
+    expect(() => box.open(sealed, 'webhook-secret:2')).toThrow();
+    const [iv, ct, tag] = sealed.slice('sealed:v1:'.length).split('.') as [string, string, string];
+    const flipped = Buffer.from(ct, 'base64url');
+    flipped[0]! ^= 1;
+    expect(() => box.open(`sealed:v1:${iv}.${flipped.toString('base64url')}.${tag}`, 'webhook-secret:1')).toThrow();
+    const other = secretBox({ dataDir: '/nonexistent', secretsKey: randomBytes(32) });
+    expect(() => other.open(sealed, 'webhook-secret:1')).toThrow();
+  });
+
+  it('creates its key in the data folder once, readable by the owner only', () => {
+    const dir = mkdtempSync(join(tmpdir(), 'lotproof-box-'));
+    const a = secretBox({ dataDir: dir, secretsKey: null });
+    const sealed = a.seal('kept', 'c');
+    expect(Buffer.from(readFileSync(join(dir, 'secrets-key'), 'utf8').trim(), 'base64')).toHaveLength(32);
+    expect(statSync(join(dir, 'secrets-key')).mode & 0o777).toBe(0o600);
+    expect(secretBox({ dataDir: dir, secretsKey: null }).open(sealed, 'c')).toBe('kept');
+  });
+
+  it('takes LOTPROOF_SECRETS_KEY only as 32 bytes of base64', () => {
+    expect(loadConfig({ LOTPROOF_SECRETS_KEY: randomBytes(32).toString('base64') }).secretsKey).toHaveLength(32);
+    expect(() => loadConfig({ LOTPROOF_SECRETS_KEY: randomBytes(16).toString('base64') })).toThrow(/LOTPROOF_SECRETS_KEY/);
+    expect(loadConfig({}).secretsKey).toBeNull();
+  });
+});
