@@ -6,8 +6,7 @@
 // A dump of the database alone does not give the secrets away. Each value is bound to where it
 // belongs (its row) as associated data, so a ciphertext copied elsewhere does not decrypt.
 import { createCipheriv, createDecipheriv, createHash, randomBytes } from 'node:crypto';
-import { chmodSync, existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
-import { join } from 'node:path';
+import { readOrCreateKeyFile } from '../platform/key-files';
 import type { Config } from '../config';
 
 const PREFIX = 'sealed:v1:';
@@ -24,23 +23,8 @@ export function isSealed(stored: string): boolean {
 }
 
 function keyFromFile(dataDir: string): Buffer {
-  const file = join(dataDir, 'secrets-key');
-  if (!existsSync(file)) {
-    mkdirSync(dataDir, { recursive: true });
-    try {
-      // 'wx': when several processes start at once, the first writes and the others read its key.
-      writeFileSync(file, randomBytes(32).toString('base64') + '\n', { mode: 0o600, flag: 'wx' });
-    } catch (err) {
-      if ((err as NodeJS.ErrnoException).code !== 'EEXIST') throw err;
-    }
-  }
-  try {
-    chmodSync(file, 0o600);
-  } catch {
-    /* read-only mount: fine */
-  }
-  const key = Buffer.from(readFileSync(file, 'utf8').trim(), 'base64');
-  if (key.length !== 32) throw new Error(`${file} does not hold a 32-byte key (base64)`);
+  const key = Buffer.from(readOrCreateKeyFile(dataDir, 'secrets-key', () => randomBytes(32).toString('base64') + '\n').trim(), 'base64');
+  if (key.length !== 32) throw new Error(`${dataDir}/secrets-key does not hold a 32-byte key (base64)`);
   return key;
 }
 

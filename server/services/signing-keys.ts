@@ -3,8 +3,7 @@
 // The public half of every key that ever signed is kept in `signing_keys`, so /.well-known/jwks.json
 // keeps serving old keys after a rotation and old seals stay verifiable.
 import { createHash, createPrivateKey, createPublicKey, generateKeyPairSync, sign, verify, type KeyObject } from 'node:crypto';
-import { chmodSync, existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
-import { join } from 'node:path';
+import { readOrCreateKeyFile } from '../platform/key-files';
 import { QueryTypes, type Sequelize } from 'sequelize';
 import { ConfigError, type Config } from '../config';
 
@@ -38,24 +37,8 @@ function fromPrivate(privateKey: KeyObject): SigningKey {
 }
 
 function loadFromFile(dataDir: string): SigningKey {
-  const file = join(dataDir, 'signing-key.pem');
-  if (!existsSync(file)) {
-    mkdirSync(dataDir, { recursive: true });
-    const { privateKey } = generateKeyPairSync('ed25519');
-    const pem = privateKey.export({ format: 'pem', type: 'pkcs8' }) as string;
-    try {
-      // 'wx': when several processes start at once, the first writes and the others read its key.
-      writeFileSync(file, pem, { mode: 0o600, flag: 'wx' });
-    } catch (err) {
-      if ((err as NodeJS.ErrnoException).code !== 'EEXIST') throw err;
-    }
-  }
-  try {
-    chmodSync(file, 0o600);
-  } catch {
-    /* read-only mount: fine */
-  }
-  return fromPrivate(createPrivateKey(readFileSync(file, 'utf8')));
+  const pem = readOrCreateKeyFile(dataDir, 'signing-key.pem', () => generateKeyPairSync('ed25519').privateKey.export({ format: 'pem', type: 'pkcs8' }) as string);
+  return fromPrivate(createPrivateKey(pem));
 }
 
 const cache = new Map<string, SigningKey>();
