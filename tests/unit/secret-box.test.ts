@@ -1,12 +1,23 @@
 // Secrets stored sealed (AES-256-GCM, NIST SP 800-38D, via node:crypto): they open only unaltered,
 // in the place they were sealed for, under the key they were sealed with.
-import { mkdtempSync, readFileSync, statSync } from 'node:fs';
+import { mkdtempSync, readFileSync, statSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { randomBytes } from 'node:crypto';
-import { describe, expect, it } from 'vitest';
+import { afterAll, describe, expect, it } from 'vitest';
 import { loadConfig } from '../../server/config';
 import { isSealed, secretBox } from '../../server/services/secret-box';
+
+
+const dirs: string[] = [];
+function tempDir(): string {
+  const d = mkdtempSync(join(tmpdir(), 'lotproof-box-'));
+  dirs.push(d);
+  return d;
+}
+afterAll(() => {
+  for (const d of dirs) rmSync(d, { recursive: true, force: true });
+});
 
 describe('secretBox', () => {
   it('opens what it sealed, and nothing altered, moved or sealed under another key', () => {
@@ -26,7 +37,7 @@ describe('secretBox', () => {
   });
 
   it('creates its key in the data folder once, readable by the owner only', () => {
-    const dir = mkdtempSync(join(tmpdir(), 'lotproof-box-'));
+    const dir = tempDir();
     const a = secretBox({ dataDir: dir, secretsKey: null });
     const sealed = a.seal('kept', 'c');
     expect(Buffer.from(readFileSync(join(dir, 'secrets-key'), 'utf8').trim(), 'base64')).toHaveLength(32);
