@@ -44,8 +44,17 @@ export async function deliverWebhook(deps: JobDeps, deliveryId: string, lastAtte
     await log(null, 'the endpoint is disabled or removed', 0, 'failed');
     return;
   }
+  let secret: string;
+  try {
+    secret = openWebhookSecret(secretBox(config), d.endpoint_id, d.secret);
+  } catch {
+    // Sealed under another key: every server sharing this database needs the same LOTPROOF_SECRETS_KEY.
+    const error = 'the signing secret cannot be opened here: this server has another LOTPROOF_SECRETS_KEY than the one that stored it';
+    await log(null, error, 0, lastAttempt ? 'failed' : 'pending');
+    throw new DeliveryFailed(error);
+  }
   const now = new Date();
-  const signature = new Webhook(openWebhookSecret(secretBox(config), d.endpoint_id, d.secret)).sign(d.id, now, d.payload);
+  const signature = new Webhook(secret).sign(d.id, now, d.payload);
   const started = performance.now();
   let statusCode: number | null = null;
   let error: string | null = null;

@@ -4,7 +4,10 @@ import { randomUUID } from 'node:crypto';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { WebhookEndpoint } from '../../server/models';
 import { isSealed, secretBox } from '../../server/services/secret-box';
-import { newWebhookSecret, openWebhookSecret, sealClearWebhookSecrets } from '../../server/services/webhooks';
+import { randomBytes } from 'node:crypto';
+import { QueryTypes } from 'sequelize';
+import { deliverWebhook, DeliveryFailed } from '../../server/jobs/webhook-delivery';
+import { newWebhookSecret, openWebhookSecret, sealClearWebhookSecrets, sendTestWebhook } from '../../server/services/webhooks';
 import { buildTestApp, createTestOrganisation, type TestApp } from '../support/app';
 
 let t: TestApp;
@@ -29,5 +32,20 @@ describe('webhook secrets from before sealing', () => {
     expect(openWebhookSecret(box, id, stored)).toBe(secret);
     expect(await sealClearWebhookSecrets(t.ctx.db.sequelize, box)).toBe(0);
     expect((await WebhookEndpoint.findByPk(id))!.secret).toBe(stored);
+  });
+
+  it('are not opened under another secrets key: the attempt says why, and nothing is sent', async () => {
+    const org = await createTestOrganisation('Other key packer');
+    const id = randomUUID();
+    const box = secretBox(t.ctx.config);
+    await WebhookEndpoint.create({ id, organisationId: org.id, url: 'https://receiver.example/new', events: ['verdict.created'], description: '', enabled: true, secret: box.seal(newWebhookSecret(), `webhook-secret:${id}`) });
+    const principal = { organisationId: org.id, kind: 'api-key' as const, scopes: ['webhooks:manage' as const] };
+    const delivery = await sendTestWebhook(t.ctx.db.sequelize, principal as never, id);
+    const otherServer = { ...t.ctx.config, secretsKey: randomBytes(32) };
+    await expect(deliverWebhook({ sequelize: t.ctx.db.sequelize, config: otherServer, logger: t.ctx.logger }, delivery.id, true)).rejects.toBeInstanceOf(DeliveryFailed);
+    const attempts = await t.ctx.db.sequelize.query<{ error: string; status_code: number | null }>('SELECT error, status_code FROM webhook_attempts WHERE delivery_id = $1', { bind: [delivery.id], type: QueryTypes.SELECT });
+    expect(attempts).toHaveLength(1);
+    expect(attempts[0]!.error).toMatch(/LOTPROOF_SECRETS_KEY/);
+    expect(attempts[0]!.status_code).toBeNull();
   });
 });
