@@ -1,5 +1,6 @@
 // `npm run cli -- <command>`: the operator's tool for a fresh install and for scripts — create an
-// organisation and its first admin, issue keys (the secret is printed once), list and revoke keys.
+// organisation and its first admin, issue keys (the secret is printed once), list and revoke keys,
+// rotate the seal signing key.
 // Uses DATABASE_URL, or the embedded cluster under the data folder like `npm start` does.
 import { randomBytes } from 'node:crypto';
 import { mkdirSync } from 'node:fs';
@@ -19,6 +20,7 @@ import { apiKeyView, createKey, listKeys, revokeKey } from '../services/key-mana
 import { createOrganisation, findOrganisation } from '../services/organisations';
 import { SCOPES, type Principal, type Scope } from '../services/principal';
 import { createUser } from '../services/users';
+import { currentSigningKey, publishSigningKey, rotateSigningKeyFile } from '../services/signing-keys';
 
 const USAGE = `Lotproof operator CLI
 
@@ -30,6 +32,11 @@ const USAGE = `Lotproof operator CLI
       Issues an API key and prints its secret once.
   npm run cli -- key:list --org <slug|id>
   npm run cli -- key:revoke --org <slug|id> --key <key id | lpk_ prefix>
+  npm run cli -- signing-key:rotate
+      Replaces the seal signing key in the data folder with a new one and publishes its public key
+      (every old public key stays in /.well-known/jwks.json, so old seals stay verifiable).
+      Running servers sign with the new key after a restart. With LOTPROOF_SIGNING_KEY set, put
+      the new PKCS#8 PEM there instead (openssl genpkey -algorithm ed25519) and restart.
 
 Scopes: ${SCOPES.join(', ')}
 Database: DATABASE_URL, or else the embedded cluster in LOTPROOF_DATA_DIR (default .data).`;
@@ -172,6 +179,20 @@ async function main(argv: string[]): Promise<void> {
         if (!found) throw new UsageError(`No key ${ref} in ${o.slug}`);
         const k = await revokeKey(actor(o.id), found.id);
         console.log(`revoked ${k.id} ${apiKeyView(found).prefix} (${k.name})`);
+      });
+      return;
+    }
+    case 'signing-key:rotate': {
+      const config = loadConfig();
+      if (config.verdicts.signingKeyPem) {
+        throw new UsageError('The signing key comes from LOTPROOF_SIGNING_KEY: put the new PKCS#8 PEM there (openssl genpkey -algorithm ed25519) and restart the servers; the old public key stays published.');
+      }
+      await withDatabase(async (db) => {
+        // the current key's public half is published (again) before it is retired, then the new one
+        await publishSigningKey(db.sequelize, currentSigningKey(config));
+        const { previous, next } = rotateSigningKeyFile(config.dataDir);
+        await publishSigningKey(db.sequelize, next);
+        console.log(`retired ${previous.kid} (kept as ${config.dataDir}/signing-key.${previous.kid}.retired.pem)\nsigning key is now ${next.kid}; restart running servers to sign with it`);
       });
       return;
     }

@@ -3,6 +3,8 @@
 // The public half of every key that ever signed is kept in `signing_keys`, so /.well-known/jwks.json
 // keeps serving old keys after a rotation and old seals stay verifiable.
 import { createHash, createPrivateKey, createPublicKey, generateKeyPairSync, sign, verify, type KeyObject } from 'node:crypto';
+import { renameSync } from 'node:fs';
+import { join } from 'node:path';
 import { readOrCreateKeyFile } from '../platform/key-files';
 import { QueryTypes, type Sequelize } from 'sequelize';
 import { ConfigError, type Config } from '../config';
@@ -36,9 +38,25 @@ function fromPrivate(privateKey: KeyObject): SigningKey {
   return { kid, privateKey, publicKey, jwk: { kty: 'OKP', crv: 'Ed25519', x, kid, alg: 'EdDSA', use: 'sig' } };
 }
 
+const KEY_FILE = 'signing-key.pem';
+const newKeyPem = () => generateKeyPairSync('ed25519').privateKey.export({ format: 'pem', type: 'pkcs8' }) as string;
+
 function loadFromFile(dataDir: string): SigningKey {
-  const pem = readOrCreateKeyFile(dataDir, 'signing-key.pem', () => generateKeyPairSync('ed25519').privateKey.export({ format: 'pem', type: 'pkcs8' }) as string);
-  return fromPrivate(createPrivateKey(pem));
+  return fromPrivate(createPrivateKey(readOrCreateKeyFile(dataDir, KEY_FILE, newKeyPem)));
+}
+
+/**
+ * Rotates the file key: the current key is kept beside it as signing-key.<kid>.retired.pem (mode
+ * 0600, for the record; its public half stays published) and a new key takes its place. Servers
+ * sign with the new key after their next start. Not for a key given in LOTPROOF_SIGNING_KEY.
+ */
+export function rotateSigningKeyFile(dataDir: string): { previous: SigningKey; next: SigningKey } {
+  const file = join(dataDir, KEY_FILE);
+  const previous = fromPrivate(createPrivateKey(readOrCreateKeyFile(dataDir, KEY_FILE, newKeyPem)));
+  renameSync(file, join(dataDir, `signing-key.${previous.kid}.retired.pem`));
+  const next = fromPrivate(createPrivateKey(readOrCreateKeyFile(dataDir, KEY_FILE, newKeyPem)));
+  cache.delete(`file:${dataDir}`);
+  return { previous, next };
 }
 
 const cache = new Map<string, SigningKey>();

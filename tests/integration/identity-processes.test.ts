@@ -2,6 +2,9 @@
 // every process, and rate-limit counters are shared. Also: the operator CLI bootstraps an install.
 import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import { once } from 'node:events';
+import { existsSync, mkdtempSync, readFileSync, rmSync, statSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { initModels } from '../../server/models';
@@ -104,8 +107,11 @@ describe('two API processes on one database', () => {
 
 describe('operator CLI', () => {
   function cli(...args: string[]) {
+    return cliWith({}, ...args);
+  }
+  function cliWith(env: Record<string, string>, ...args: string[]) {
     const r = spawnSync('npx', ['tsx', 'server/bin/cli.ts', ...args], {
-      env: { ...process.env, DATABASE_URL: testDatabaseUrl(), NODE_ENV: 'test', LOTPROOF_PUBLIC_URL: 'http://console.test' },
+      env: { ...process.env, DATABASE_URL: testDatabaseUrl(), NODE_ENV: 'test', LOTPROOF_PUBLIC_URL: 'http://console.test', ...env },
       encoding: 'utf8',
     });
     return { code: r.status, out: r.stdout, err: r.stderr };
@@ -140,6 +146,28 @@ describe('operator CLI', () => {
     expect(badScope.code).toBe(2);
     expect(badScope.err).toMatch(/scopes/);
   }, 90_000);
+
+  it('rotates the seal signing key: the old one is retired beside it, both public keys are published', async () => {
+    const dataDir = mkdtempSync(join(tmpdir(), 'lotproof-rotate-'));
+    try {
+      const env = { LOTPROOF_DATA_DIR: dataDir };
+      const first = cliWith(env, 'signing-key:rotate');
+      expect(first.code, first.err).toBe(0);
+      const [, oldKid, newKid] = /retired (\S+) .*\nsigning key is now (\S+);/s.exec(first.out) ?? [];
+      expect(oldKid).toMatch(/^[A-Za-z0-9_-]{43}$/);
+      expect(newKid).toMatch(/^[A-Za-z0-9_-]{43}$/);
+      expect(newKid).not.toBe(oldKid);
+      expect(existsSync(join(dataDir, `signing-key.${oldKid}.retired.pem`))).toBe(true);
+      expect(statSync(join(dataDir, 'signing-key.pem')).mode & 0o777).toBe(0o600);
+      const kids = (await request(t.app).get('/.well-known/jwks.json')).body.keys.map((k: { kid: string }) => k.kid);
+      expect(kids).toEqual(expect.arrayContaining([oldKid, newKid]));
+      const fromEnv = cliWith({ ...env, LOTPROOF_SIGNING_KEY: readFileSync(join(dataDir, 'signing-key.pem'), 'utf8') }, 'signing-key:rotate');
+      expect(fromEnv.code).toBe(2);
+      expect(fromEnv.err).toMatch(/LOTPROOF_SIGNING_KEY/);
+    } finally {
+      rmSync(dataDir, { recursive: true, force: true });
+    }
+  }, 60_000);
 
   it('prints an invitation link for the first admin with --invite', () => {
     const slug = `cli-inv-${Date.now()}`;
