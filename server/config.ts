@@ -11,7 +11,7 @@ export interface Config {
   databaseUrl: string | null;
   /** Port of the embedded cluster (only used when databaseUrl is null). */
   embeddedPgPort: number;
-  /** Folder for local state: the embedded cluster, the signing key, demo credentials. */
+  /** Folder for local state: the embedded cluster, the signing and secrets keys, demo credentials. */
   dataDir: string;
   /** AES-256 key for secrets stored encrypted (LOTPROOF_SECRETS_KEY); null: <dataDir>/secrets-key. */
   secretsKey: Buffer | null;
