@@ -129,6 +129,7 @@ export interface paths {
          * Invite someone by e-mail to join with a role
          * @description Sends an e-mail with a one-time link to `/accept-invite?token=…` on the console. A newer
          *     invitation to the same address replaces a pending one. 409 when the address has an account.
+         *     With an `Idempotency-Key`, a retry returns the first reply and sends no second e-mail.
          */
         post: operations["createInvitation"];
         delete?: never;
@@ -1480,6 +1481,8 @@ export interface operations {
             header?: {
                 /** @description Required (value `1`) when the call is authenticated by a console session; API keys do not need it. */
                 "X-Lotproof-Console"?: components["parameters"]["ConsoleHeader"];
+                /** @description Makes a retry safe; a replay returns the first response byte for byte. */
+                "Idempotency-Key"?: components["parameters"]["IdempotencyKey"];
             };
             path?: never;
             cookie?: never;

@@ -114,6 +114,22 @@ describe('invitation → e-mail → accept → sign in', () => {
     const list = await request(t.app).get('/v1/invitations').set('Cookie', adminCookie);
     expect(list.body.items.find((i: { id: string }) => i.id === inv.body.id).status).toBe('revoked');
   });
+
+  it('replays an invitation retried with the same Idempotency-Key, without a second e-mail', async () => {
+    const email = `retried-${Date.now()}@packer.example`;
+    const send = (body: object) => request(t.app).post('/v1/invitations').set('Cookie', adminCookie).set(C).set('Idempotency-Key', `invite-${email}`).send(body);
+    const first = await send({ email, role: 'quality' });
+    expect(first.status).toBe(201);
+    await waitForMail(email, /invited/);
+    const again = await send({ email, role: 'quality' });
+    expect(again.status).toBe(201);
+    expect(again.text).toBe(first.text);
+    expect(again.headers['idempotent-replayed']).toBe('true');
+    await new Promise((r) => setTimeout(r, 300));
+    expect(smtp.messages().filter((m) => m.to.includes(email))).toHaveLength(1);
+    const other = await send({ email, role: 'auditor' });
+    expect(other.status).toBe(422);
+  });
 });
 
 describe('sessions', () => {
