@@ -27,6 +27,10 @@ async function main(): Promise<void> {
   const logger = createLogger(config.logLevel);
   let cluster: RunningCluster | null = null;
   let databaseUrl = config.databaseUrl;
+  if (databaseUrl && !config.secretsKey) {
+    // A database of one's own is often shared by several servers: they must seal alike.
+    logger.warn(`LOTPROOF_SECRETS_KEY is not set: webhook secrets are sealed with ${join(config.dataDir, 'secrets-key')}; every server sharing this database needs the same key (set LOTPROOF_SECRETS_KEY on all of them)`);
+  }
   if (!databaseUrl) {
     ensureDebianPackages(['postgresql']);
     mkdirSync(config.dataDir, { recursive: true });
