@@ -2,8 +2,7 @@
 // every process, and rate-limit counters are shared. Also: the operator CLI bootstraps an install.
 import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import { once } from 'node:events';
-import { existsSync, mkdtempSync, readFileSync, rmSync, statSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { existsSync, readFileSync, statSync } from 'node:fs';
 import { join } from 'node:path';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -11,6 +10,9 @@ import { initModels } from '../../server/models';
 import { freePort } from '../../server/platform/embedded-postgres';
 import { buildTestApp, createTestKey, createTestOrganisation, testConfig, testDatabaseUrl, type TestApp } from '../support/app';
 import { createTestUser, sessionCookieFor } from '../support/identity';
+import { useTempDirs } from '../support/temp-dirs';
+
+const tempDir = useTempDirs('lotproof-rotate-');
 
 let t: TestApp;
 let second: ChildProcess;
@@ -148,25 +150,21 @@ describe('operator CLI', () => {
   }, 90_000);
 
   it('rotates the seal signing key: the old one is retired beside it, both public keys are published', async () => {
-    const dataDir = mkdtempSync(join(tmpdir(), 'lotproof-rotate-'));
-    try {
-      const env = { LOTPROOF_DATA_DIR: dataDir };
-      const first = cliWith(env, 'signing-key:rotate');
-      expect(first.code, first.err).toBe(0);
-      const [, oldKid, newKid] = /retired (\S+) .*\nsigning key is now (\S+);/s.exec(first.out) ?? [];
-      expect(oldKid).toMatch(/^[A-Za-z0-9_-]{43}$/);
-      expect(newKid).toMatch(/^[A-Za-z0-9_-]{43}$/);
-      expect(newKid).not.toBe(oldKid);
-      expect(existsSync(join(dataDir, `signing-key.${oldKid}.retired.pem`))).toBe(true);
-      expect(statSync(join(dataDir, 'signing-key.pem')).mode & 0o777).toBe(0o600);
-      const kids = (await request(t.app).get('/.well-known/jwks.json')).body.keys.map((k: { kid: string }) => k.kid);
-      expect(kids).toEqual(expect.arrayContaining([oldKid, newKid]));
-      const fromEnv = cliWith({ ...env, LOTPROOF_SIGNING_KEY: readFileSync(join(dataDir, 'signing-key.pem'), 'utf8') }, 'signing-key:rotate');
-      expect(fromEnv.code).toBe(2);
-      expect(fromEnv.err).toMatch(/LOTPROOF_SIGNING_KEY/);
-    } finally {
-      rmSync(dataDir, { recursive: true, force: true });
-    }
+    const dataDir = tempDir();
+    const env = { LOTPROOF_DATA_DIR: dataDir };
+    const first = cliWith(env, 'signing-key:rotate');
+    expect(first.code, first.err).toBe(0);
+    const [, oldKid, newKid] = /retired (\S+) .*\nsigning key is now (\S+);/s.exec(first.out) ?? [];
+    expect(oldKid).toMatch(/^[A-Za-z0-9_-]{43}$/);
+    expect(newKid).toMatch(/^[A-Za-z0-9_-]{43}$/);
+    expect(newKid).not.toBe(oldKid);
+    expect(existsSync(join(dataDir, `signing-key.${oldKid}.retired.pem`))).toBe(true);
+    expect(statSync(join(dataDir, 'signing-key.pem')).mode & 0o777).toBe(0o600);
+    const kids = (await request(t.app).get('/.well-known/jwks.json')).body.keys.map((k: { kid: string }) => k.kid);
+    expect(kids).toEqual(expect.arrayContaining([oldKid, newKid]));
+    const fromEnv = cliWith({ ...env, LOTPROOF_SIGNING_KEY: readFileSync(join(dataDir, 'signing-key.pem'), 'utf8') }, 'signing-key:rotate');
+    expect(fromEnv.code).toBe(2);
+    expect(fromEnv.err).toMatch(/LOTPROOF_SIGNING_KEY/);
   }, 60_000);
 
   it('prints an invitation link for the first admin with --invite', () => {

@@ -1,23 +1,14 @@
 // Key files in the data folder: written once (mode 0600), then read back; the seal signing key
 // kept in one is created on first use.
-import { mkdtempSync, readFileSync, statSync, rmSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { readFileSync, statSync } from 'node:fs';
 import { join } from 'node:path';
-import { afterAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { readOrCreateKeyFile } from '../../server/platform/key-files';
 import { currentSigningKey } from '../../server/services/signing-keys';
 import type { Config } from '../../server/config';
+import { useTempDirs } from '../support/temp-dirs';
 
-
-const dirs: string[] = [];
-function tempDir(): string {
-  const d = mkdtempSync(join(tmpdir(), 'lotproof-keys-'));
-  dirs.push(d);
-  return d;
-}
-afterAll(() => {
-  for (const d of dirs) rmSync(d, { recursive: true, force: true });
-});
+const tempDir = useTempDirs('lotproof-keys-');
 
 describe('readOrCreateKeyFile', () => {
   it('creates the file once, owner-only, and reads it back afterwards without creating again', () => {

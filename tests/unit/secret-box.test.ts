@@ -1,23 +1,14 @@
 // Secrets stored sealed (AES-256-GCM, NIST SP 800-38D, via node:crypto): they open only unaltered,
 // in the place they were sealed for, under the key they were sealed with.
-import { mkdtempSync, readFileSync, statSync, rmSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { readFileSync, statSync } from 'node:fs';
 import { join } from 'node:path';
 import { randomBytes } from 'node:crypto';
-import { afterAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { loadConfig } from '../../server/config';
 import { isSealed, secretBox } from '../../server/services/secret-box';
+import { useTempDirs } from '../support/temp-dirs';
 
-
-const dirs: string[] = [];
-function tempDir(): string {
-  const d = mkdtempSync(join(tmpdir(), 'lotproof-box-'));
-  dirs.push(d);
-  return d;
-}
-afterAll(() => {
-  for (const d of dirs) rmSync(d, { recursive: true, force: true });
-});
+const tempDir = useTempDirs('lotproof-box-');
 
 describe('secretBox', () => {
   it('opens what it sealed, and nothing altered, moved or sealed under another key', () => {
