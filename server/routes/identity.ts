@@ -16,6 +16,7 @@ import {
   revokeInvitation,
 } from '../services/invitations';
 import { idempotent } from '../services/idempotency';
+import { idemKey, sendStored } from '../http/replies';
 import { createKey, getKey, listKeys, revokeKey } from '../services/key-management';
 import { configureMailer, readDevMailbox } from '../services/mailer';
 import type { Principal, Role, Scope } from '../services/principal';
@@ -83,14 +84,11 @@ export function identityHandlers(ctx: AppContext): Handlers {
     },
     createInvitation: async (req, res) => {
       // A retry with the same Idempotency-Key gets the first reply and sends no second e-mail.
-      const p = req.principal!;
-      const key = req.get('Idempotency-Key') || null;
-      const r = await idempotent(ctx.db.sequelize, p.organisationId, 'createInvitation', key, req.body, async () => {
+      const r = await idempotent(ctx.db.sequelize, req.principal!.organisationId, 'createInvitation', idemKey(req), req.body, async () => {
         const v = await createInvitation(actor(req), { email: req.body.email, role: req.body.role as Role }, links);
         return { status: 201, value: v, resourceId: v.id };
       });
-      if (r.replayed) res.setHeader('Idempotent-Replayed', 'true');
-      res.status(r.status).type('application/json').send(r.body);
+      sendStored(res, r);
     },
     revokeInvitation: async (req, res) => {
       res.json(await revokeInvitation(actor(req), String(req.params.invitationId)));

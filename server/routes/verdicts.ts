@@ -1,10 +1,10 @@
 // Products, lots, verdicts, seals, the ledger, exports, webhooks, rulebooks and the JWKS. Thin:
 // read the validated request, call one service, send the reply.
-import type { Request, Response } from 'express';
 import { listRulebooks } from '../../shared/engine';
 import type { AppContext, Handlers } from '../http/context';
 import { exportVerdicts } from '../services/exports';
-import { idempotent, type StoredReply } from '../services/idempotency';
+import { idempotent } from '../services/idempotency';
+import { idemKey, sendJsonText, sendStored } from '../http/replies';
 import { submitLot, type CsvQuery } from '../services/lots';
 import { archiveProduct, createProduct, getProduct, listProducts, updateProduct } from '../services/products';
 import { exportDocument, lookupSeal, verifyDocument, verifyLedger } from '../services/seals';
@@ -20,20 +20,6 @@ import {
   sendTestWebhook,
   updateWebhook,
 } from '../services/webhooks';
-
-function sendJsonText(res: Response, status: number, body: string, replayed = false): void {
-  if (replayed) res.setHeader('Idempotent-Replayed', 'true');
-  res.status(status).type('application/json').send(body);
-}
-
-function sendStored(res: Response, r: StoredReply): void {
-  sendJsonText(res, r.status, r.body, r.replayed);
-}
-
-function idemKey(req: Request): string | null {
-  const k = req.get('Idempotency-Key');
-  return k ? k : null;
-}
 
 function filterOf(q: Record<string, unknown>): VerdictFilter {
   const s = (k: string) => (typeof q[k] === 'string' ? (q[k] as string) : undefined);
