@@ -15,6 +15,8 @@ export interface Config {
   dataDir: string;
   /** AES-256 key for secrets stored encrypted (LOTPROOF_SECRETS_KEY); null: <dataDir>/secrets-key. */
   secretsKey: Buffer | null;
+  /** Keys before it (LOTPROOF_SECRETS_KEY_PREVIOUS, comma-separated): they still open, never seal. */
+  secretsKeysPrevious: Buffer[];
   /** Largest accepted request body, in bytes (JSON and CSV). */
   bodyLimitBytes: number;
   /** Public base URL used in links (e-mails, docs "servers"). */
@@ -155,10 +157,10 @@ function bool(env: NodeJS.ProcessEnv, name: string, fallback: boolean): boolean 
 
 export const DEFAULT_PORT = 4780;
 
-function secretsKeyOf(raw: string | undefined): Buffer | null {
+function secretsKeyOf(raw: string | undefined, name: string): Buffer | null {
   if (!raw) return null;
   const key = Buffer.from(raw.trim(), 'base64');
-  if (key.length !== 32) throw new ConfigError('LOTPROOF_SECRETS_KEY must be 32 bytes, base64-encoded (e.g. openssl rand -base64 32)');
+  if (key.length !== 32) throw new ConfigError(`${name} must be 32 bytes, base64-encoded (e.g. openssl rand -base64 32)`);
   return key;
 }
 
@@ -176,7 +178,8 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     databaseUrl,
     embeddedPgPort: int(env, 'LOTPROOF_PG_PORT', 25480, 1024, 65535),
     dataDir: resolve(env.LOTPROOF_DATA_DIR || '.data'),
-    secretsKey: secretsKeyOf(env.LOTPROOF_SECRETS_KEY),
+    secretsKey: secretsKeyOf(env.LOTPROOF_SECRETS_KEY, 'LOTPROOF_SECRETS_KEY'),
+    secretsKeysPrevious: (env.LOTPROOF_SECRETS_KEY_PREVIOUS ?? '').split(',').filter((k) => k.trim()).map((k) => secretsKeyOf(k, 'LOTPROOF_SECRETS_KEY_PREVIOUS')!),
     bodyLimitBytes: int(env, 'LOTPROOF_BODY_LIMIT_MB', 40, 1, 1024) * 1024 * 1024,
     publicUrl: (env.LOTPROOF_PUBLIC_URL || `http://${host}:${port}`).replace(/\/$/, ''),
     trustProxy: parseTrustProxy(env.LOTPROOF_TRUST_PROXY),

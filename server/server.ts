@@ -9,7 +9,7 @@ import type { AppContext } from './http/context';
 import { startJobs, type RunningJobs } from './jobs';
 import { currentSigningKey, publishSigningKey } from './services/signing-keys';
 import { secretBox } from './services/secret-box';
-import { sealClearWebhookSecrets } from './services/webhooks';
+import { resealWebhookSecrets } from './services/webhooks';
 
 export interface RunningServer {
   url: string;
@@ -25,8 +25,11 @@ export async function startServer(config: Config & { databaseUrl: string }, logg
   const ctx: AppContext = { config, db, logger };
   // The seal signing key: read (or created) now, so a bad LOTPROOF_SIGNING_KEY stops the start.
   await publishSigningKey(db.sequelize, currentSigningKey(config));
-  // Webhook secrets stored in clear by an earlier version are sealed now (a bad key stops the start).
-  await sealClearWebhookSecrets(db.sequelize, secretBox(config));
+  // Webhook secrets in clear (earlier versions) or under a previous key are sealed anew (a bad key stops the start).
+  const sealed = await resealWebhookSecrets(db.sequelize, secretBox(config));
+  if (sealed.unreadable > 0) {
+    logger.warn(`${sealed.unreadable} stored webhook secret(s) do not open with this server's secrets key (LOTPROOF_SECRETS_KEY or <dataDir>/secrets-key); their deliveries will fail until the key that sealed them is configured`);
+  }
   const app = createApp(ctx);
   const jobs: RunningJobs | null = config.verdicts.runJobs ? await startJobs(ctx) : null;
   const server = await new Promise<Server>((resolve, reject) => {

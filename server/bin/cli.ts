@@ -1,6 +1,6 @@
 // `npm run cli -- <command>`: the operator's tool for a fresh install and for scripts — create an
 // organisation and its first admin, issue keys (the secret is printed once), list and revoke keys,
-// rotate the seal signing key.
+// rotate the seal signing key and the secrets key.
 // Uses DATABASE_URL, or the embedded cluster under the data folder like `npm start` does.
 import { randomBytes } from 'node:crypto';
 import { mkdirSync } from 'node:fs';
@@ -21,6 +21,8 @@ import { createOrganisation, findOrganisation } from '../services/organisations'
 import { SCOPES, type Principal, type Scope } from '../services/principal';
 import { createUser } from '../services/users';
 import { currentSigningKey, publishSigningKey, rotateSigningKeyFile } from '../services/signing-keys';
+import { rotateSecretsKeyFile, secretBox } from '../services/secret-box';
+import { resealWebhookSecrets } from '../services/webhooks';
 
 const USAGE = `Lotproof operator CLI
 
@@ -37,6 +39,11 @@ const USAGE = `Lotproof operator CLI
       (every old public key stays in /.well-known/jwks.json, so old seals stay verifiable).
       Running servers sign with the new key after a restart. With LOTPROOF_SIGNING_KEY set, put
       the new PKCS#8 PEM there instead (openssl genpkey -algorithm ed25519) and restart.
+  npm run cli -- secrets-key:rotate
+      Replaces the key that seals webhook secrets in the data folder (the old one is kept as
+      secrets-key.previous and still opens) and seals every stored secret again under the new key.
+      Restart running servers. With LOTPROOF_SECRETS_KEY set, set the new key there and the old
+      one in LOTPROOF_SECRETS_KEY_PREVIOUS, and restart: the start seals everything again.
 
 Scopes: ${SCOPES.join(', ')}
 Database: DATABASE_URL, or else the embedded cluster in LOTPROOF_DATA_DIR (default .data).`;
@@ -193,6 +200,18 @@ async function main(argv: string[]): Promise<void> {
         const { previous, next } = rotateSigningKeyFile(config.dataDir);
         await publishSigningKey(db.sequelize, next);
         console.log(`retired ${previous.kid} (kept as ${config.dataDir}/signing-key.${previous.kid}.retired.pem)\nsigning key is now ${next.kid}; restart running servers to sign with it`);
+      });
+      return;
+    }
+    case 'secrets-key:rotate': {
+      const config = loadConfig();
+      if (config.secretsKey) {
+        throw new UsageError('The secrets key comes from LOTPROOF_SECRETS_KEY: set the new key there and the old one in LOTPROOF_SECRETS_KEY_PREVIOUS, then restart the servers; the start seals every stored secret again.');
+      }
+      await withDatabase(async (db) => {
+        rotateSecretsKeyFile(config.dataDir);
+        const r = await resealWebhookSecrets(db.sequelize, secretBox(config));
+        console.log(`new secrets key in ${config.dataDir}/secrets-key (the old one kept as secrets-key.previous); ${r.resealed} stored secret(s) sealed again${r.unreadable ? `, ${r.unreadable} sealed under a key not known here left as they are` : ''}\nrestart running servers to seal with the new key`);
       });
       return;
     }

@@ -78,24 +78,54 @@ export function openWebhookSecret(box: SecretBox, endpointId: string, stored: st
 }
 
 /**
- * Seals what versions before sealing stored in clear: endpoints' signing secrets and the stored
- * replies of idempotent endpoint creations (which show the secret). Run at start; idempotent.
+ * The value sealed under the box's current key, from clear (versions before sealing) or from a
+ * previous key; 'current' when it already is; 'unreadable' when no key known here opens it.
  */
-export async function sealClearWebhookSecrets(sequelize: Sequelize, box: SecretBox): Promise<number> {
-  const rows = await sequelize.query<{ id: string; secret: string }>("SELECT id, secret FROM webhook_endpoints WHERE secret NOT LIKE 'sealed:%'", { type: QueryTypes.SELECT });
+function resealed(box: SecretBox, stored: string, context: string): string | 'current' | 'unreadable' {
+  if (box.isCurrent(stored, context)) return 'current';
+  try {
+    return box.seal(isSealed(stored) ? box.open(stored, context) : stored, context);
+  } catch {
+    return 'unreadable';
+  }
+}
+
+export interface ResealReport {
+  resealed: number;
+  /** Sealed under a key not known here: left as they are (their deliveries fail and say why). */
+  unreadable: number;
+}
+
+/**
+ * Seals under the current key whatever is not: endpoints' signing secrets and the stored replies
+ * of idempotent endpoint creations (which show the secret), stored in clear by versions before
+ * sealing or sealed under a previous key. Run at start and after a key rotation; idempotent.
+ */
+export async function resealWebhookSecrets(sequelize: Sequelize, box: SecretBox): Promise<ResealReport> {
+  const report: ResealReport = { resealed: 0, unreadable: 0 };
+  const apply = async (stored: string, context: string, write: (next: string) => Promise<unknown>) => {
+    const next = resealed(box, stored, context);
+    if (next === 'current') return;
+    if (next === 'unreadable') return void report.unreadable++;
+    await write(next);
+    report.resealed++;
+  };
+  const rows = await sequelize.query<{ id: string; secret: string }>('SELECT id, secret FROM webhook_endpoints', { type: QueryTypes.SELECT });
   for (const r of rows) {
-    await sequelize.query('UPDATE webhook_endpoints SET secret = $2 WHERE id = $1 AND secret = $3', { bind: [r.id, box.seal(r.secret, webhookSecretContext(r.id)), r.secret] });
+    await apply(r.secret, webhookSecretContext(r.id), (next) =>
+      sequelize.query('UPDATE webhook_endpoints SET secret = $2 WHERE id = $1 AND secret = $3', { bind: [r.id, next, r.secret] }));
   }
   const replies = await sequelize.query<{ organisation_id: string; key: string; response: string }>(
-    "SELECT organisation_id, key, response FROM idempotency_records WHERE operation = 'createWebhook' AND response NOT LIKE 'sealed:%'",
+    "SELECT organisation_id, key, response FROM idempotency_records WHERE operation = 'createWebhook'",
     { type: QueryTypes.SELECT },
   );
   for (const r of replies) {
-    await sequelize.query("UPDATE idempotency_records SET response = $3 WHERE organisation_id = $1 AND operation = 'createWebhook' AND key = $2 AND response = $4", {
-      bind: [r.organisation_id, r.key, box.seal(r.response, idempotentReplyContext(r.organisation_id, 'createWebhook', r.key)), r.response],
-    });
+    await apply(r.response, idempotentReplyContext(r.organisation_id, 'createWebhook', r.key), (next) =>
+      sequelize.query("UPDATE idempotency_records SET response = $3 WHERE organisation_id = $1 AND operation = 'createWebhook' AND key = $2 AND response = $4", {
+        bind: [r.organisation_id, r.key, next, r.response],
+      }));
   }
-  return rows.length + replies.length;
+  return report;
 }
 
 /** Creates an endpoint; its signing secret is returned this once and stored sealed. */

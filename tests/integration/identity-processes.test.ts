@@ -1,16 +1,19 @@
 // Several API processes share one database: a revoked key is refused on the very next request by
 // every process, and rate-limit counters are shared. Also: the operator CLI bootstraps an install.
 import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
+import { randomBytes, randomUUID } from 'node:crypto';
 import { once } from 'node:events';
 import { existsSync, readFileSync, statSync } from 'node:fs';
 import { join } from 'node:path';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { initModels } from '../../server/models';
+import { initModels, WebhookEndpoint } from '../../server/models';
 import { freePort } from '../../server/platform/embedded-postgres';
 import { buildTestApp, createTestKey, createTestOrganisation, testConfig, testDatabaseUrl, type TestApp } from '../support/app';
 import { createTestUser, sessionCookieFor } from '../support/identity';
 import { useTempDirs } from '../support/temp-dirs';
+import { secretBox } from '../../server/services/secret-box';
+import { newWebhookSecret, openWebhookSecret, webhookSecretContext } from '../../server/services/webhooks';
 
 const tempDir = useTempDirs('lotproof-rotate-');
 
@@ -165,6 +168,25 @@ describe('operator CLI', () => {
     const fromEnv = cliWith({ ...env, LOTPROOF_SIGNING_KEY: readFileSync(join(dataDir, 'signing-key.pem'), 'utf8') }, 'signing-key:rotate');
     expect(fromEnv.code).toBe(2);
     expect(fromEnv.err).toMatch(/LOTPROOF_SIGNING_KEY/);
+  }, 60_000);
+
+  it('rotates the secrets key: stored webhook secrets are sealed again under the new key and still open', async () => {
+    const dataDir = tempDir();
+    const files = { dataDir, secretsKey: null, secretsKeysPrevious: [] };
+    const org = await createTestOrganisation('Rotating secrets packer');
+    const id = randomUUID();
+    const secret = newWebhookSecret();
+    await WebhookEndpoint.create({ id, organisationId: org.id, url: 'https://receiver.example/rotate', events: ['verdict.created'], description: '', enabled: true, secret: secretBox(files).seal(secret, webhookSecretContext(id)) });
+    const rotated = cliWith({ LOTPROOF_DATA_DIR: dataDir }, 'secrets-key:rotate');
+    expect(rotated.code, rotated.err).toBe(0);
+    expect(rotated.out).toMatch(/[1-9]\d* stored secret\(s\) sealed again/);
+    const box = secretBox(files);
+    const stored = (await WebhookEndpoint.findByPk(id))!.secret;
+    expect(box.isCurrent(stored, webhookSecretContext(id))).toBe(true);
+    expect(openWebhookSecret(box, id, stored)).toBe(secret);
+    const fromEnv = cliWith({ LOTPROOF_DATA_DIR: dataDir, LOTPROOF_SECRETS_KEY: randomBytes(32).toString('base64') }, 'secrets-key:rotate');
+    expect(fromEnv.code).toBe(2);
+    expect(fromEnv.err).toMatch(/LOTPROOF_SECRETS_KEY_PREVIOUS/);
   }, 60_000);
 
   it('prints an invitation link for the first admin with --invite', () => {

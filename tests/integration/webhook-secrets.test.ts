@@ -7,7 +7,7 @@ import { isSealed, secretBox } from '../../server/services/secret-box';
 import { randomBytes } from 'node:crypto';
 import { QueryTypes } from 'sequelize';
 import { deliverWebhook, DeliveryFailed } from '../../server/jobs/webhook-delivery';
-import { newWebhookSecret, openWebhookSecret, sealClearWebhookSecrets, sendTestWebhook } from '../../server/services/webhooks';
+import { newWebhookSecret, openWebhookSecret, resealWebhookSecrets, sendTestWebhook } from '../../server/services/webhooks';
 import { buildTestApp, createTestOrganisation, type TestApp } from '../support/app';
 
 let t: TestApp;
@@ -25,12 +25,12 @@ describe('webhook secrets from before sealing', () => {
     const id = randomUUID();
     await WebhookEndpoint.create({ id, organisationId: org.id, url: 'https://receiver.example/old', events: ['verdict.created'], description: '', enabled: true, secret });
     const box = secretBox(t.ctx.config);
-    expect(await sealClearWebhookSecrets(t.ctx.db.sequelize, box)).toBeGreaterThanOrEqual(1);
+    expect((await resealWebhookSecrets(t.ctx.db.sequelize, box)).resealed).toBeGreaterThanOrEqual(1);
     const stored = (await WebhookEndpoint.findByPk(id))!.secret;
     expect(isSealed(stored)).toBe(true);
     expect(stored).not.toContain(secret.slice('whsec_'.length));
     expect(openWebhookSecret(box, id, stored)).toBe(secret);
-    expect(await sealClearWebhookSecrets(t.ctx.db.sequelize, box)).toBe(0);
+    expect((await resealWebhookSecrets(t.ctx.db.sequelize, box)).resealed).toBe(0);
     expect((await WebhookEndpoint.findByPk(id))!.secret).toBe(stored);
   });
 
