@@ -157,11 +157,15 @@ function bool(env: NodeJS.ProcessEnv, name: string, fallback: boolean): boolean 
 
 export const DEFAULT_PORT = 4780;
 
-function secretsKeyOf(raw: string | undefined, name: string): Buffer | null {
-  if (!raw) return null;
-  const key = Buffer.from(raw.trim(), 'base64');
-  if (key.length !== 32) throw new ConfigError(`${name} must be 32 bytes, base64-encoded (e.g. openssl rand -base64 32)`);
+/** A secrets key from its base64 text (an environment variable or a key file, named by `where`). */
+export function decodeSecretsKey(text: string, where: string): Buffer {
+  const key = Buffer.from(text.trim(), 'base64');
+  if (key.length !== 32) throw new ConfigError(`${where} must hold 32 bytes, base64-encoded (e.g. openssl rand -base64 32)`);
   return key;
+}
+
+function secretsKeyOf(raw: string | undefined, name: string): Buffer | null {
+  return raw ? decodeSecretsKey(raw, name) : null;
 }
 
 export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {

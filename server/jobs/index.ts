@@ -9,6 +9,7 @@ import type { AppContext } from '../http/context';
 import { ledgerEvents } from '../services/ledger';
 import { deliverAlertEmail } from './alert-email';
 import { deliverWebhook } from './webhook-delivery';
+import { secretBox } from '../services/secret-box';
 
 export const WEBHOOK_QUEUE = 'webhook-delivery';
 export const EMAIL_QUEUE = 'alert-email';
@@ -90,7 +91,7 @@ export async function startJobs(ctx: AppContext): Promise<RunningJobs> {
   const timer = setInterval(() => void drain(), 2_000);
   timer.unref();
 
-  const deps = { sequelize: ctx.db.sequelize, config: ctx.config, logger: ctx.logger };
+  const deps = { sequelize: ctx.db.sequelize, config: ctx.config, logger: ctx.logger, secrets: secretBox(ctx.config) };
   for (let i = 0; i < WEBHOOK_WORKERS; i++) {
     await boss.work<{ deliveryId: string }>(WEBHOOK_QUEUE, { batchSize: 1, pollingIntervalSeconds: 0.5, includeMetadata: true }, async ([job]) => {
       if (job) await deliverWebhook(deps, job.data.deliveryId, job.retryCount >= job.retryLimit);

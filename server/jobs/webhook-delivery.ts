@@ -7,13 +7,15 @@ import { QueryTypes, type Sequelize } from 'sequelize';
 import type { Logger } from 'pino';
 import type { Config } from '../config';
 import { postWebhook, RefusedTarget } from './webhook-post';
-import { secretBox } from '../services/secret-box';
+import type { SecretBox } from '../services/secret-box';
 import { openWebhookSecret } from '../services/webhooks';
 
 export interface JobDeps {
   sequelize: Sequelize;
   config: Config;
   logger: Logger;
+  /** Opens the endpoints' sealed signing secrets (made once per job runner). */
+  secrets: SecretBox;
 }
 
 export class DeliveryFailed extends Error {}
@@ -46,7 +48,7 @@ export async function deliverWebhook(deps: JobDeps, deliveryId: string, lastAtte
   }
   let secret: string;
   try {
-    secret = openWebhookSecret(secretBox(config), d.endpoint_id, d.secret);
+    secret = openWebhookSecret(deps.secrets, d.endpoint_id, d.secret);
   } catch {
     // Sealed under another key: every server sharing this database needs the same LOTPROOF_SECRETS_KEY.
     const error = 'the signing secret cannot be opened here: this server has another LOTPROOF_SECRETS_KEY than the one that stored it';

@@ -34,6 +34,7 @@ export function verdictHandlers(ctx: AppContext): Handlers {
   const { config } = ctx;
   const sequelize = ctx.db.sequelize;
   const allowPrivate = config.verdicts.webhookAllowPrivateTargets;
+  const box = secretBox(config);
 
   return {
     getJwks: async (_req, res) => {
@@ -126,7 +127,6 @@ export function verdictHandlers(ctx: AppContext): Handlers {
     },
     createWebhook: async (req, res) => {
       const p = req.principal!;
-      const box = secretBox(config);
       // (the reply shows the signing secret once; a replay of it is kept sealed too)
       const r = await idempotent(sequelize, p.organisationId, 'createWebhook', idemKey(req), req.body, async () => {
         const v = await createWebhook(p, req.body, allowPrivate, box);

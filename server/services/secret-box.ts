@@ -11,7 +11,7 @@ import { createCipheriv, createDecipheriv, randomBytes } from 'node:crypto';
 import { existsSync, readFileSync, renameSync } from 'node:fs';
 import { join } from 'node:path';
 import { readOrCreateKeyFile } from '../platform/key-files';
-import type { Config } from '../config';
+import { decodeSecretsKey, type Config } from '../config';
 
 const PREFIX = 'sealed:v1:';
 
@@ -31,12 +31,6 @@ export function isSealed(stored: string): boolean {
 const KEY_FILE = 'secrets-key';
 const PREVIOUS_FILE = 'secrets-key.previous';
 
-function keyOf(text: string, where: string): Buffer {
-  const key = Buffer.from(text.trim(), 'base64');
-  if (key.length !== 32) throw new Error(`${where} does not hold a 32-byte key (base64)`);
-  return key;
-}
-
 function newKeyText(): string {
   return randomBytes(32).toString('base64') + '\n';
 }
@@ -46,8 +40,8 @@ function keysOf(config: Pick<Config, 'dataDir' | 'secretsKey' | 'secretsKeysPrev
   if (config.secretsKey) return { current: config.secretsKey, previous: config.secretsKeysPrevious };
   const previousFile = join(config.dataDir, PREVIOUS_FILE);
   return {
-    current: keyOf(readOrCreateKeyFile(config.dataDir, KEY_FILE, newKeyText), join(config.dataDir, KEY_FILE)),
-    previous: existsSync(previousFile) ? [keyOf(readFileSync(previousFile, 'utf8'), previousFile)] : [],
+    current: decodeSecretsKey(readOrCreateKeyFile(config.dataDir, KEY_FILE, newKeyText), join(config.dataDir, KEY_FILE)),
+    previous: existsSync(previousFile) ? [decodeSecretsKey(readFileSync(previousFile, 'utf8'), previousFile)] : [],
   };
 }
 
@@ -70,7 +64,7 @@ function openWith(key: Buffer, stored: string, context: string): string {
   return Buffer.concat([d.update(Buffer.from(ct ?? '', 'base64url')), d.final()]).toString('utf8');
 }
 
-/** The secret box for this configuration (key files are read on each call: it is rarely made). */
+/** The secret box for this configuration; its keys are read when it is made (once per app or job runner). */
 export function secretBox(config: Pick<Config, 'dataDir' | 'secretsKey' | 'secretsKeysPrevious'>): SecretBox {
   const { current, previous } = keysOf(config);
   const isCurrent = (stored: string, context: string): boolean => {

@@ -51,10 +51,9 @@ function loadFromFile(dataDir: string): SigningKey {
  * sign with the new key after their next start. Not for a key given in LOTPROOF_SIGNING_KEY.
  */
 export function rotateSigningKeyFile(dataDir: string): { previous: SigningKey; next: SigningKey } {
-  const file = join(dataDir, KEY_FILE);
-  const previous = fromPrivate(createPrivateKey(readOrCreateKeyFile(dataDir, KEY_FILE, newKeyPem)));
-  renameSync(file, join(dataDir, `signing-key.${previous.kid}.retired.pem`));
-  const next = fromPrivate(createPrivateKey(readOrCreateKeyFile(dataDir, KEY_FILE, newKeyPem)));
+  const previous = loadFromFile(dataDir);
+  renameSync(join(dataDir, KEY_FILE), join(dataDir, `signing-key.${previous.kid}.retired.pem`));
+  const next = loadFromFile(dataDir);
   cache.delete(`file:${dataDir}`);
   return { previous, next };
 }

@@ -42,7 +42,7 @@ describe('webhook secrets from before sealing', () => {
     const principal = { organisationId: org.id, kind: 'api-key' as const, scopes: ['webhooks:manage' as const] };
     const delivery = await sendTestWebhook(t.ctx.db.sequelize, principal as never, id);
     const otherServer = { ...t.ctx.config, secretsKey: randomBytes(32) };
-    await expect(deliverWebhook({ sequelize: t.ctx.db.sequelize, config: otherServer, logger: t.ctx.logger }, delivery.id, true)).rejects.toBeInstanceOf(DeliveryFailed);
+    await expect(deliverWebhook({ sequelize: t.ctx.db.sequelize, config: otherServer, logger: t.ctx.logger, secrets: secretBox(otherServer) }, delivery.id, true)).rejects.toBeInstanceOf(DeliveryFailed);
     const attempts = await t.ctx.db.sequelize.query<{ error: string; status_code: number | null }>('SELECT error, status_code FROM webhook_attempts WHERE delivery_id = $1', { bind: [delivery.id], type: QueryTypes.SELECT });
     expect(attempts).toHaveLength(1);
     expect(attempts[0]!.error).toMatch(/LOTPROOF_SECRETS_KEY/);
