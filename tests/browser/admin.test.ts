@@ -1,16 +1,9 @@
 // The admin's path: a key issued, its secret shown once, used by a plain HTTP call, revoked, and
 // the same call refused; and the other admin views drawn, at desktop and at tablet width.
-import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
-import { screenshot, seedProduct, signIn, startHarness, type Harness, screenshotOnFailure } from './support';
+import { describe, expect, it } from 'vitest';
+import { screenshot, seedProduct, signIn, useHarness } from './support';
 
-let h: Harness;
-beforeAll(async () => {
-  h = await startHarness('admin');
-});
-afterEach(screenshotOnFailure);
-afterAll(async () => {
-  await h?.close();
-});
+const h = useHarness('admin');
 
 describe('API keys', () => {
   it('issues a key, shows the secret once, and the key works until it is revoked', async () => {

@@ -1,12 +1,12 @@
 // The quick-start promise: an integrator pastes an API key into the interactive docs, submits the
 // documented example lot with "Try it out", gets a sealed verdict, and a quality engineer then
 // finds that verdict in the console.
-import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import { issueApiKey } from '../../server/services/api-keys';
 import { loadApiDocument } from '../../openapi/load';
-import { screenshot, screenshotOnFailure, seedProduct, signIn, startHarness, type Harness } from './support';
+import { screenshot, seedProduct, signIn, useHarness } from './support';
 
-let h: Harness;
+const h = useHarness('docs');
 let apiKey: string;
 const example = loadApiDocument().paths['/v1/lots'].post.requestBody.content['application/json'];
 const exampleBody = (example.example ?? Object.values(example.examples as Record<string, { value: unknown }>)[0]!.value) as {
@@ -15,14 +15,9 @@ const exampleBody = (example.example ?? Object.values(example.examples as Record
 };
 
 beforeAll(async () => {
-  h = await startHarness('docs');
   // The product the documented example names, in this test's own organisation.
   await seedProduct(h, { sku: exampleBody.sku, tareMode: 'none', fixedTare: null, nominalQuantity: 500, unit: 'g' });
   apiKey = (await issueApiKey({ organisationId: h.organisationId, name: 'docs try-out', scopes: ['lots:submit', 'verdicts:read'] })).secret;
-});
-afterEach(screenshotOnFailure);
-afterAll(async () => {
-  await h?.close();
 });
 
 describe('the interactive docs', () => {

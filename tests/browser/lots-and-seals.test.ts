@@ -1,21 +1,16 @@
 // The quality engineer's path and the auditor's: a CSV read and judged in the browser, sent with a
 // progress bar, its sealed verdict drawn; then the seal checked in the auditor's browser, and a
 // tampered export refused.
-import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
-import { demoCsv, screenshot, seedProduct, signIn, startHarness, type Harness, screenshotOnFailure } from './support';
+import { beforeAll, describe, expect, it } from 'vitest';
+import { demoCsv, screenshot, seedProduct, signIn, useHarness } from './support';
 
-let h: Harness;
+const h = useHarness('lots');
 let product: { id: string; sku: string; name: string };
 let verdictId = '';
 let seal = '';
 
 beforeAll(async () => {
-  h = await startHarness('lots');
   product = await seedProduct(h, { name: 'Rolled oats 500 g (browser test)' });
-});
-afterEach(screenshotOnFailure);
-afterAll(async () => {
-  await h?.close();
 });
 
 describe('submitting a lot by hand', () => {

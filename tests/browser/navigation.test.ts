@@ -1,16 +1,9 @@
 // Each role signs in through the real sign-in form and sees only its own sections; the router
 // also refuses a section of another role typed into the address bar.
-import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
-import { navigationNames, screenshot, signIn, startHarness, type Harness, screenshotOnFailure } from './support';
+import { describe, expect, it } from 'vitest';
+import { navigationNames, screenshot, signIn, useHarness } from './support';
 
-let h: Harness;
-beforeAll(async () => {
-  h = await startHarness('navigation');
-});
-afterEach(screenshotOnFailure);
-afterAll(async () => {
-  await h?.close();
-});
+const h = useHarness('navigation');
 
 describe('navigation per role', () => {
   it('shows the sign-in page to a visitor and sends guarded addresses there', async () => {

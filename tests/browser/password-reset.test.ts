@@ -1,17 +1,10 @@
 // A forgotten password, end to end in the browser: ask for a link from the sign-in page, open the
 // e-mail in the development mailbox, follow the link, set a new password, and sign in with it
 // (the old one is refused afterwards, and the link works only once).
-import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
-import { PASSWORD, screenshot, screenshotOnFailure, signIn, startHarness, type Harness } from './support';
+import { describe, expect, it } from 'vitest';
+import { PASSWORD, screenshot, signIn, useHarness } from './support';
 
-let h: Harness;
-beforeAll(async () => {
-  h = await startHarness('reset');
-});
-afterEach(screenshotOnFailure);
-afterAll(async () => {
-  await h?.close();
-});
+const h = useHarness('reset');
 
 describe('password reset', () => {
   it('sends a link to the dev mailbox, sets a new password through it, and signs in with that', async () => {

@@ -1,17 +1,10 @@
 // A console session that ends while a page is open (here: unused for longer than the idle
 // timeout) sends the page to sign-in, which says why, and signing in again returns to the page.
-import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { Session, User } from '../../server/models';
-import { PASSWORD, screenshot, screenshotOnFailure, signIn, startHarness, type Harness } from './support';
+import { PASSWORD, screenshot, signIn, useHarness } from './support';
 
-let h: Harness;
-beforeAll(async () => {
-  h = await startHarness('session-end');
-});
-afterEach(screenshotOnFailure);
-afterAll(async () => {
-  await h?.close();
-});
+const h = useHarness('session-end');
 
 describe('a session that ends while the console is open', () => {
   it('goes to sign-in with a note, and back to the page after signing in again', async () => {

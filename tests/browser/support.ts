@@ -8,6 +8,7 @@ import { startTestSmtp } from '../support/identity';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { chromium, type BrowserContext, type Page } from 'playwright-core';
+import { afterAll, afterEach, beforeAll } from 'vitest';
 import { buildTestApp, createTestOrganisation, testConfig, type TestApp } from '../support/app';
 import { createUser } from '../../server/services/users';
 import type { Principal, Role } from '../../server/services/principal';
@@ -35,6 +36,23 @@ export async function screenshotOnFailure(ctx: { task: { name: string; result?: 
   if (ctx.task.result?.state === 'fail' && lastPage && !lastPage.isClosed()) {
     await screenshot(lastPage, `failed-${ctx.task.name.replace(/[^a-z0-9]+/gi, '-').slice(0, 60)}`).catch(() => undefined);
   }
+}
+
+/**
+ * The harness of one browser test file: started before its tests (hooks registered after this
+ * call run after the start, so they may seed data), closed after them, with a screenshot of the
+ * page a failed test left behind. The object returned is filled in when the harness has started.
+ */
+export function useHarness(label: string): Harness {
+  const h = {} as Harness;
+  beforeAll(async () => {
+    Object.assign(h, await startHarness(label));
+  });
+  afterEach(screenshotOnFailure);
+  afterAll(async () => {
+    await h.close?.();
+  });
+  return h;
 }
 
 export async function startHarness(label: string): Promise<Harness> {

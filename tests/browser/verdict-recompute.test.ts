@@ -1,14 +1,13 @@
 // The verdict detail's Recompute action: the server re-runs the recorded engine on the stored input
 // and the page says, in words and with a mark, whether the stored result was reproduced exactly.
-import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import { issueApiKey } from '../../server/services/api-keys';
-import { screenshot, screenshotOnFailure, seedProduct, signIn, startHarness, type Harness } from './support';
+import { screenshot, seedProduct, signIn, useHarness } from './support';
 import { measurements } from '../support/lots';
 
-let h: Harness;
+const h = useHarness('recompute');
 let verdictId: string;
 beforeAll(async () => {
-  h = await startHarness('recompute');
   const product = await seedProduct(h, { tareMode: 'none', fixedTare: null });
   const { secret } = await issueApiKey({ organisationId: h.organisationId, name: 'recompute test', scopes: ['lots:submit'] });
   const res = await fetch(`${h.baseUrl}/v1/lots`, {
@@ -27,10 +26,6 @@ beforeAll(async () => {
   const body = await res.json();
   if (res.status !== 201) throw new Error(`lot: ${res.status} ${JSON.stringify(body)}`);
   verdictId = body.id;
-});
-afterEach(screenshotOnFailure);
-afterAll(async () => {
-  await h?.close();
 });
 
 describe('recomputing a verdict', () => {
