@@ -89,10 +89,6 @@ export function createApp(ctx: AppContext): Express {
   );
 
   const limit = ctx.config.bodyLimitBytes;
-  // The raw bytes of a JSON body stay on the request (a reference, not a copy): an Idempotency-Key
-  // fingerprints the body as sent rather than serialising a parsed million-value lot again.
-  app.use(express.json({ limit, type: ['application/json', 'application/*+json'], verify: (req, _res, buf) => void ((req as express.Request).rawBody = buf) }));
-  app.use(express.text({ limit, type: ['text/csv', 'text/plain'] }));
   app.use((req, _res, next) => {
     const declared = Number(req.headers['content-length'] ?? 0);
     if (declared > limit) return next(new PayloadTooLargeProblem(`The body is ${declared} bytes; the limit is ${limit} bytes.`));
@@ -108,6 +104,14 @@ export function createApp(ctx: AppContext): Express {
   for (const op of operations) {
     app[op.method](expressPath(op.path), authorize(op.access, op.operationId));
   }
+  // Bodies are read only once the caller is known and may call the operation: nobody without a
+  // valid credential makes the server read or parse a body (up to the body limit), and for a large
+  // lot the credential check runs while the body is still arriving.
+  //
+  // The raw bytes of a JSON body stay on the request (a reference, not a copy): an Idempotency-Key
+  // fingerprints the body as sent rather than serialising a parsed million-value lot again.
+  app.use(express.json({ limit, type: ['application/json', 'application/*+json'], verify: (req, _res, buf) => void ((req as express.Request).rawBody = buf) }));
+  app.use(express.text({ limit, type: ['text/csv', 'text/plain'] }));
   memoiseValidatorRouteRegexps();
   app.use(
     OpenApiValidator.middleware({

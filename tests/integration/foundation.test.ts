@@ -56,6 +56,17 @@ describe('client errors are problem details, never 5xx', () => {
     expect(res.body.detail).toMatch(/not valid JSON/);
   });
 
+  it('a body is read only after the caller is known: malformed JSON without a credential is a 401, with one a 400', async () => {
+    const bad = '{"measurements": [500.1, ';
+    const anonymous = await request(t.app).post('/v1/lots').set('Content-Type', 'application/json').send(bad);
+    expectProblem(anonymous, 401);
+    const wrongScope = await request(t.app).post('/v1/lots').set('Authorization', `Bearer ${key}`).set('Content-Type', 'application/json').send(bad);
+    expectProblem(wrongScope, 403);
+    const allowed = await request(t.app).post('/v1/lots').set('Authorization', `Bearer ${submitKey}`).set('Content-Type', 'application/json').send(bad);
+    expectProblem(allowed, 400);
+    expect(allowed.body.detail).toMatch(/not valid JSON/);
+  });
+
   it('a body of a content type the operation does not take is a 415 problem', async () => {
     const res = await request(t.app)
       .post('/v1/lots')
