@@ -114,6 +114,36 @@ describe('eu-76-211 decisions (Directive 76/211/EEC Annex I 1.1–1.3, Annex II 
     expect(v.criteria.find((c) => c.id === 'mean')).toMatchObject({ limit: 500, passed: true });
   });
 
+  // UK SI 2006/659 Schedule 2 para 3.6 (as made; legislation.gov.uk): "For a batch of fewer than 100
+  // packages the batch shall be considered acceptable for the purposes of the check if the number of
+  // defective packages does not exceed 5%." The Directive itself gives no number for such a lot.
+  it.each([
+    [20, 1], // 5 % of 20 = 1
+    [60, 3], // 5 % of 60 = 3
+    [99, 4], // 5 % of 99 = 4.95: 4 may be defective, 5 may not
+  ])('a lot of %d checked in full may have %d defectives, 5 per cent of it (UK SI 2006/659 Sch. 2 para 3.6)', (lotSize, allowed) => {
+    // TNE for Qn 500 g is 15 g (Annex I 2.4): T1 = 485 g, T2 = 470 g; 484 g is below T1 only.
+    const lot = (defectives: number) => {
+      const xs = ramp(lotSize, 506, 1.5);
+      for (let i = 0; i < defectives; i++) xs[i * 3] = 484;
+      return verdictOf(lotInput({}, { lotSize, measurements: xs }));
+    };
+    const ok = lot(allowed);
+    expect(ok.criteria.find((c) => c.id === 't1')).toMatchObject({ observed: allowed, passed: true });
+    expect(ok.criteria.find((c) => c.id === 't1')!.sentence).toMatch(/5 % of the lot; UK SI 2006\/659 Sch\. 2 para 3\.6/);
+    expect(lot(allowed + 1).criteria.find((c) => c.id === 't1')).toMatchObject({ observed: allowed + 1, passed: false });
+    expect(lot(allowed + 1).decision).toBe('nonconforming');
+  });
+
+  it('allows 2.5 % defectives in a lot of 100 or more measured in full (common practice; from memory; verify)', () => {
+    const xs = ramp(200, 506, 1.5);
+    for (let i = 0; i < 5; i++) xs[i * 7] = 484;
+    const five = verdictOf(lotInput({}, { lotSize: 200, measurements: xs }));
+    expect(five.criteria.find((c) => c.id === 't1')).toMatchObject({ observed: 5, passed: true });
+    xs[199] = 484;
+    expect(verdictOf(lotInput({}, { lotSize: 200, measurements: xs })).criteria.find((c) => c.id === 't1')!.passed).toBe(false);
+  });
+
   it('refuses destructive testing of a lot under 100 (Annex II 2.1)', () => {
     const r = evaluateLot(lotInput({}, { lotSize: 50, testing: 'destructive', measurements: ramp(20, 502, 2) }));
     expect(r.ok).toBe(false);

@@ -16,9 +16,13 @@
  * - every measured pack is used: λ is computed for the actual n (equal to the printed factor when
  *   n is the Annex's sample size), and a sample larger than the plan's is judged with the plan's
  *   acceptance number (stricter than the plan, never laxer);
- * - when every pack of the lot is measured, the lot mean is known, so the mean check is x̄ ≥ Qn,
- *   and the T1 count may not exceed 2.5 % of the lot — common practice, the proportion the Annex II
- *   plans are built around (from memory; verify);
+ * - when every pack of the lot is measured, the lot mean is known, so the mean check is x̄ ≥ Qn
+ *   (as the UK reference test says for lots under 100: SI 2006/659 Schedule 2, para 4.7). The
+ *   Directive gives no T1 allowance for a check of every pack. For a lot under 100 packs the UK
+ *   reference test accepts the lot when the defectives do not exceed 5 % of it (SI 2006/659
+ *   Schedule 2, para 3.6, as made), and that is used here; for a lot of 100 or more measured in
+ *   full no text gives a number, and 2.5 % of the lot is used — common practice, the proportion the
+ *   Annex II plans are built around (from memory; verify);
  * - after a second sample the mean check and the T2 check use both samples together.
  */
 import type { LotInput, RulebookInfo } from '../types';
@@ -29,12 +33,12 @@ import { countBelow, countBelowT1T2, meanCheckFactor, meanCriterion, sampleSizeC
 
 export const EU_76_211_INFO: RulebookInfo = {
   id: 'eu-76-211',
-  version: '1976-78.1',
+  version: '1976-78.2',
   title: 'EU average system for prepackages (Directive 76/211/EEC)',
   source:
     'Council Directive 76/211/EEC of 20 January 1976, as amended by Commission Directive 78/891/EEC: Annex I 1.1–1.3, 2.2, 2.4; Annex II 2.1–2.3',
   provenance:
-    'TNE table, sampling plans and mean-check factors as printed in the Directive (Annex I 2.4, Annex II 2.2, 2.3). The 2.5 % T1 allowance for a 100 % check is common practice (from memory; verify).',
+    'TNE table, sampling plans and mean-check factors as printed in the Directive (Annex I 2.4, Annex II 2.2, 2.3). A lot under 100 packs checked in full may have defectives up to 5 % of the lot, as in the UK reference test (SI 2006/659 Schedule 2, para 3.6, as made); the 2.5 % T1 allowance for a lot of 100 or more checked in full is common practice (from memory; verify).',
   parameters: [],
 };
 
@@ -73,9 +77,12 @@ export function euPlan(lotSize: number, testing: 'destructive' | 'non-destructiv
   return { kind: 'double', first: row.first, second: row.second, meanN: euMeanSampleSize(lotSize, testing) };
 }
 
-/** T1 allowance for a 100 % check: 2.5 % of the packs (common practice; from memory; verify). */
-export function fullCheckT1Allowance(n: number): number {
-  return Math.floor((n * 25) / 1000);
+/** T1 allowance when every pack of a lot of n packs is checked, with the words that say where it comes from. */
+export function fullCheckT1Allowance(n: number): { allowed: number; basis: string } {
+  // Under 100 packs: "does not exceed 5 %" (UK SI 2006/659 Schedule 2, para 3.6, as made).
+  if (n < 100) return { allowed: Math.floor((n * 5) / 100), basis: '5 % of the lot; UK SI 2006/659 Sch. 2 para 3.6' };
+  // 100 or more: no text gives a number; 2.5 % is common practice (from memory; verify).
+  return { allowed: Math.floor((n * 25) / 1000), basis: '2.5 % of the lot; common practice' };
 }
 
 function validate(input: LotInput): ReturnType<Rulebook['validate']> {
@@ -110,14 +117,14 @@ function judge(ctx: JudgeContext): Judgement | { error: ReturnType<typeof engine
   if (plan.kind === 'full' || everyPack) {
     const size = sampleSizeCriterion(n, lotSize, `(every pack) ${lotText}`);
     if (n < lotSize) return { ...base, criteria: [size], insufficient: true, additionalPacks: null };
-    const allowed = fullCheckT1Allowance(n);
+    const { allowed, basis } = fullCheckT1Allowance(n);
     const [t1, t2] = countBelowT1T2(net, t1Limit, t2Limit);
     return {
       ...base,
       criteria: [
         size,
         meanCriterion(mean, sd, n, qn, null, unit),
-        t1Criterion(t1.count, t1Limit, tne, unit, allowed, allowed + 1, 'for a check of every pack (2.5 % of the lot; common practice)'),
+        t1Criterion(t1.count, t1Limit, tne, unit, allowed, allowed + 1, `for a check of every pack (${basis})`),
         t2Criterion(t2.count, t2Limit, unit),
       ],
       insufficient: false,
