@@ -107,6 +107,8 @@ describe('eu-76-211 decisions (Directive 76/211/EEC Annex I 1.1–1.3, Annex II 
     expect(v.criteria[0]).toMatchObject({ id: 'sample-size', observed: 50, limit: 80, passed: false });
   });
 
+  // Mean of a lot under 100 checked in full ≥ Qn: UK SI 2006/659 Sch. 2 para 4.7 (as made), and the
+  // French transposition, Arrêté du 20 octobre 1978 art. 10.2 (Légifrance).
   it('checks every pack of a lot under 100 and then compares the mean with Qn itself (Annex II 2.1, Annex I 1.1)', () => {
     expect(verdictOf(lotInput({}, { lotSize: 40, measurements: ramp(39, 503, 2) })).decision).toBe('insufficient-data');
     const v = verdictOf(lotInput({}, { lotSize: 40, measurements: ramp(40, 500.5, 2) }));
