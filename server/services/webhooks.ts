@@ -3,6 +3,7 @@
 // specification (webhook-id, webhook-timestamp, webhook-signature) with the `standardwebhooks` package.
 import { randomBytes, randomUUID } from 'node:crypto';
 import { isIP } from 'node:net';
+import ipaddr from 'ipaddr.js';
 import { QueryTypes, type Sequelize } from 'sequelize';
 import type { components } from '../../shared/api/schema';
 import { NotFoundProblem, ValidationProblem } from '../http/problem';
@@ -31,16 +32,17 @@ function view(e: WebhookEndpoint): EndpointView {
   };
 }
 
-/** True for an IP address on loopback, link-local, private, shared, multicast or reserved ranges. */
+/**
+ * True for an IP address that is not plain global unicast: loopback, private, shared, link-local,
+ * multicast, broadcast, benchmarking, documentation and other reserved ranges, and IPv6 forms that
+ * carry or translate to an IPv4 address (mapped, NAT64, 6to4, Teredo). The range table is ipaddr.js's
+ * (the parser Express itself uses for trust proxy).
+ */
 export function isPrivateAddress(ip: string): boolean {
-  const h = ip.replace(/^\[|\]$/g, '').toLowerCase();
-  if (isIP(h) === 4) {
-    const [a, b] = h.split('.').map(Number) as [number, number];
-    return a === 10 || a === 127 || a === 0 || (a === 169 && b === 254) || (a === 172 && b >= 16 && b <= 31) || (a === 192 && b === 168) ||
-      (a === 100 && b >= 64 && b <= 127) || (a === 198 && (b === 18 || b === 19)) || a >= 224;
-  }
-  if (isIP(h) === 6) return h === '::1' || h === '::' || h.startsWith('fc') || h.startsWith('fd') || h.startsWith('fe80') || h.startsWith('::ffff:') || h.startsWith('ff');
-  return false;
+  const h = ip.replace(/^\[|\]$/g, '');
+  if (!isIP(h)) return false;
+  const addr = ipaddr.parse(h);
+  return addr.range() !== 'unicast';
 }
 
 /** True for hosts on loopback, link-local or private networks (refused unless allowed by config). */

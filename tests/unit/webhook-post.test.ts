@@ -1,7 +1,8 @@
 // Webhook targets are checked as they are connected to, not only when saved (DNS rebinding).
 // The address ranges are those of RFC 1918 (private), RFC 6598 (shared), RFC 3927 (link-local),
-// RFC 1122 (loopback, "this network"), RFC 2544 (benchmarking), RFC 5771 (multicast) and
-// RFC 4193 / 4291 (IPv6 unique-local, link-local, loopback, multicast).
+// RFC 1122 (loopback, "this network"), RFC 2544 (benchmarking), RFC 5737 and RFC 3849
+// (documentation), RFC 5771 (multicast), RFC 4193 / 4291 (IPv6 unique-local, link-local, loopback,
+// multicast, IPv4-mapped) and RFC 6052 (NAT64).
 import { createServer } from 'node:http';
 import type { AddressInfo } from 'node:net';
 import { describe, expect, it } from 'vitest';
@@ -10,10 +11,14 @@ import { isPrivateAddress } from '../../server/services/webhooks';
 
 describe('isPrivateAddress', () => {
   it('knows the private, shared, loopback, link-local, multicast and reserved ranges', () => {
-    for (const ip of ['10.1.2.3', '127.0.0.1', '0.0.0.0', '169.254.169.254', '172.16.0.1', '172.31.255.255', '192.168.1.1', '100.64.0.1', '198.18.0.1', '224.0.0.1', '255.255.255.255', '::1', '::', 'fd00::1', 'fe80::1', '::ffff:127.0.0.1', 'ff02::1']) {
+    for (const ip of [
+      '10.1.2.3', '127.0.0.1', '0.0.0.0', '169.254.169.254', '172.16.0.1', '172.31.255.255', '192.168.1.1', '100.64.0.1', '198.18.0.1', '198.19.255.255',
+      '192.0.2.10', '198.51.100.7', '203.0.113.99', '224.0.0.1', '240.0.0.1', '255.255.255.255',
+      '::1', '::', 'fd00::1', 'fe80::1', '::ffff:127.0.0.1', '::ffff:8.8.8.8', '64:ff9b::7f00:1', 'ff02::1', '2001:db8::1', '[2001:db8::1]',
+    ]) {
       expect(isPrivateAddress(ip), ip).toBe(true);
     }
-    for (const ip of ['8.8.8.8', '172.15.0.1', '172.32.0.1', '100.63.255.255', '100.128.0.1', '193.0.14.129', '2001:db8::1', '2a00:1450::1']) {
+    for (const ip of ['8.8.8.8', '172.15.0.1', '172.32.0.1', '100.63.255.255', '100.128.0.1', '193.0.14.129', '198.20.0.1', '2a00:1450::1', '2606:4700::1111']) {
       expect(isPrivateAddress(ip), ip).toBe(false);
     }
   });
