@@ -842,7 +842,12 @@ export interface components {
         RulebookChoice: {
             /** @enum {string} */
             id: "eu-76-211" | "oiml-r87-2016" | "custom";
-            /** @description Parameters of the custom rulebook (see GET /v1/rulebooks) */
+            /**
+             * @description Parameters of the chosen rulebook, as GET /v1/rulebooks lists them: for `custom` its significance level, limits and smallest sample; for `eu-76-211` `nonDestructivePlan`, `double` (the Directive's plan, the default) or `single` (the single plan of the UK reference test, SI 2006/659 Schedule 2 para 3.3–3.5).
+             * @example {
+             *       "nonDestructivePlan": "double"
+             *     }
+             */
             params?: {
                 [key: string]: unknown;
             };

@@ -25,7 +25,7 @@ export interface IndividualLimit {
   allowed: number;
 }
 
-/** Parameters of the `custom` rulebook (ignored by the shipped legal rulebooks). */
+/** Parameters of the `custom` rulebook. */
 export interface CustomRulebookParams {
   /** Significance level of the mean test; default 0.05 (common practice for a plant's own checks). */
   alpha?: number;
@@ -43,9 +43,17 @@ export interface CustomRulebookParams {
   minimumSampleSize?: number;
 }
 
+/** Parameters of the `eu-76-211` rulebook. */
+export interface EuRulebookParams {
+  /** Non-destructive sampling plan: the Directive's double plan (default), or the single plan the UK
+   *  reference test offers beside it (SI 2006/659 Schedule 2, para 3.3–3.5). */
+  nonDestructivePlan?: 'double' | 'single';
+}
+
 export interface RulebookChoice {
   id: RulebookId;
-  params?: CustomRulebookParams;
+  /** The chosen rulebook's parameters (see its `parameters`); others are ignored. */
+  params?: CustomRulebookParams & EuRulebookParams;
 }
 
 export interface ProductSpec {

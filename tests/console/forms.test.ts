@@ -4,7 +4,7 @@ import { describe, expect, it } from 'vitest';
 import { mount } from '@vue/test-utils';
 import { nextTick } from 'vue';
 import { apiQuery, EMPTY_FILTERS, filterProblem, filtersFromQuery, nextSort, queryFromFilters, SORTS } from '../../console/src/lib/verdictFilters';
-import { crossFieldErrors, emptyDraft, productInputOf } from '../../console/src/lib/productForm';
+import { crossFieldErrors, draftOf, emptyDraft, productInputOf } from '../../console/src/lib/productForm';
 import { validateProductInput, validateWebhookInput } from '../../console/src/lib/formValidation';
 import FilterBar from '../../console/src/components/FilterBar.vue';
 
@@ -65,6 +65,16 @@ describe('product form', () => {
     const input = productInputOf(good);
     expect(input).toMatchObject({ sku: 'OATS-500G', nominalQuantity: 500, fixedTare: 14, rulebook: { id: 'eu-76-211' }, alertRecipients: [] });
     expect(validateProductInput(input)).toEqual({});
+  });
+
+  it('sends the UK single plan as a parameter of eu-76-211 only, and reads it back', () => {
+    expect(productInputOf(good).rulebook).toEqual({ id: 'eu-76-211' });
+    const single = productInputOf({ ...good, nonDestructivePlan: 'single' });
+    expect(single.rulebook).toEqual({ id: 'eu-76-211', params: { nonDestructivePlan: 'single' } });
+    expect(validateProductInput(single)).toEqual({});
+    expect(productInputOf({ ...good, rulebook: 'oiml-r87-2016', nonDestructivePlan: 'single' }).rulebook).toEqual({ id: 'oiml-r87-2016' });
+    const stored = { ...single, id: 'p1', description: '', fixedTare: 14, tareUnit: null, density: null, createdAt: '', updatedAt: '' };
+    expect(draftOf(stored as never).nonDestructivePlan).toBe('single');
   });
 
   it('names each bad field in words, by its pointer', () => {

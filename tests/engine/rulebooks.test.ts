@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { evaluateLot, listRulebooks } from '../../shared/engine';
 import { meanCheckFactor } from '../../shared/engine/rulebooks/criteria';
-import { EU_DESTRUCTIVE_PLAN, EU_DOUBLE_PLANS, euPlan } from '../../shared/engine/rulebooks/eu76211';
+import { EU_DESTRUCTIVE_PLAN, EU_DOUBLE_PLANS, euPlan, UK_SINGLE_PLANS } from '../../shared/engine/rulebooks/eu76211';
 import { lotInput, ramp, shuffled, verdictOf } from './helpers';
 
 describe('mean-check factor λ = t(0.995; n − 1)/√n (Directive 76/211/EEC Annex II 2.3.3)', () => {
@@ -161,6 +161,53 @@ describe('eu-76-211 decisions (Directive 76/211/EEC Annex I 1.1–1.3, Annex II 
     expect(below.decision).toBe('nonconforming');
     expect(below.statistics.meanTest.pValue).toBe(0);
     expect(JSON.stringify(below)).not.toMatch(/NaN|Infinity|null,null/);
+  });
+});
+
+// UK SI 2006/659 Schedule 2 para 3.3–3.5 (as made; legislation.gov.uk), the single sampling plan for
+// non-destructive testing: "100 to 500 | 50 | 3 | 4; 501 to 3,200 | 80 | 5 | 6; 3,201 and above | 125 | 7 | 8".
+describe('eu-76-211 with the UK single plan (nonDestructivePlan: single)', () => {
+  const single = { rulebook: { id: 'eu-76-211' as const, params: { nonDestructivePlan: 'single' as const } } };
+
+  it('has the rows of the UK single plan (SI 2006/659 Sch. 2 para 3.3–3.5)', () => {
+    expect(UK_SINGLE_PLANS.map((r) => [r.minLot, r.maxLot, r.plan.n, r.plan.accept, r.plan.reject])).toEqual([
+      [100, 500, 50, 3, 4],
+      [501, 3200, 80, 5, 6],
+      [3201, Number.POSITIVE_INFINITY, 125, 7, 8],
+    ]);
+    expect(euPlan(500, 'non-destructive', 'single')).toMatchObject({ kind: 'single', first: { n: 50 }, meanN: 30 });
+    expect(euPlan(501, 'non-destructive', 'single')).toMatchObject({ kind: 'single', first: { n: 80 }, meanN: 50 });
+    expect(euPlan(3201, 'non-destructive', 'single')).toMatchObject({ kind: 'single', first: { n: 125 } });
+    // Destructive testing and lots under 100 are the same under either plan choice (Annex II 2.1, 2.2.2).
+    expect(euPlan(5000, 'destructive', 'single')).toMatchObject({ first: EU_DESTRUCTIVE_PLAN });
+    expect(euPlan(60, 'non-destructive', 'single')).toEqual({ kind: 'full' });
+  });
+
+  it('decides a lot of 400 on 50 packs with no second sample: 3 defectives pass, 4 fail', () => {
+    // TNE for Qn 500 g is 15 g (Annex I 2.4): 484 g is below T1 = 485 g and above T2 = 470 g.
+    const lot = (defectives: number) => {
+      const xs = ramp(50, 506, 1.5);
+      for (let i = 0; i < defectives; i++) xs[i * 5] = 484;
+      return verdictOf(lotInput(single, { lotSize: 400, measurements: xs }));
+    };
+    expect(verdictOf(lotInput(single, { lotSize: 400, measurements: ramp(30, 506, 1.5) })).criteria[0]).toMatchObject({ id: 'sample-size', limit: 50, passed: false });
+    const three = lot(3);
+    expect(three.criteria.find((c) => c.id === 't1')).toMatchObject({ observed: 3, passed: true });
+    expect(three.criteria.find((c) => c.id === 't1')!.sentence).toMatch(/UK SI 2006\/659 Sch\. 2 para 3\.3–3\.5/);
+    expect(three.decision).toBe('conforming');
+    const four = lot(4);
+    expect(four.criteria.find((c) => c.id === 't1')).toMatchObject({ observed: 4, passed: false });
+    expect(four.decision).toBe('nonconforming');
+    // The Directive's double plan on the same 50 packs (first sample 30, accept ≤ 1, reject ≥ 3; Annex II 2.2.1) rejects at 3.
+    const xs = ramp(50, 506, 1.5);
+    for (let i = 0; i < 3; i++) xs[i * 5] = 484;
+    expect(verdictOf(lotInput({}, { lotSize: 400, measurements: xs })).decision).toBe('nonconforming');
+  });
+
+  it('refuses a plan name it does not know, naming the parameter', () => {
+    const r = evaluateLot(lotInput({ rulebook: { id: 'eu-76-211', params: { nonDestructivePlan: 'triple' as never } } }, { measurements: ramp(30, 503, 2) }));
+    expect(r.ok).toBe(false);
+    if (!r.ok) expect(r.error.pointer).toBe('/product/rulebook/params/nonDestructivePlan');
   });
 });
 

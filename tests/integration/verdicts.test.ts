@@ -257,6 +257,19 @@ describe('products', () => {
     expectProblem(dup, 409);
     const bad = await request(t.app).post('/v1/products').set(auth()).send({ sku: 'T-BAD', name: 'x', nominalQuantity: 500, unit: 'g', tareMode: 'fixed', rulebook: { id: 'eu-76-211' } });
     expectProblem(bad, 400, '/body/fixedTare');
+    const plan = await request(t.app).post('/v1/products').set(auth()).send({ ...(await import('../support/lots')).OATS, sku: 'T-PLAN-X', rulebook: { id: 'eu-76-211', params: { nonDestructivePlan: 'triple' } } });
+    expectProblem(plan, 422, '/body/rulebook/params/nonDestructivePlan');
+  });
+
+  it('judges a product that chose the UK single plan by it (SI 2006/659 Sch. 2 para 3.3–3.5: lot 100–500 → 50 packs, accept ≤ 3)', async () => {
+    await createProduct(t.app, key, { sku: 'T-UK-SINGLE', rulebook: { id: 'eu-76-211', params: { nonDestructivePlan: 'single' } } });
+    const values = [...measurements(90, 47, 505, 1.5), 484, 484, 484];
+    const v = await request(t.app).post('/v1/lots').set(auth()).send({ ...lotBody('T-UK-SINGLE', 90), lotSize: 400, measurements: values });
+    expect(v.status, JSON.stringify(v.body)).toBe(201);
+    expect(v.body.product.spec.rulebook).toEqual({ id: 'eu-76-211', params: { nonDestructivePlan: 'single' } });
+    const t1 = v.body.result.criteria.find((c: { id: string }) => c.id === 't1');
+    expect(t1).toMatchObject({ observed: 3, limit: 3, passed: true });
+    expect(t1.sentence).toMatch(/UK SI 2006\/659/);
   });
 });
 

@@ -19,6 +19,8 @@ export interface ProductDraft {
   tareUnit: Unit | '';
   density: string;
   rulebook: RulebookId;
+  /** eu-76-211: the Directive's double plan, or the UK single plan (SI 2006/659 Sch. 2 para 3.3–3.5). */
+  nonDestructivePlan: 'double' | 'single';
   /** Custom rulebook: significance level and smallest sample. */
   alpha: string;
   minimumSampleSize: string;
@@ -26,11 +28,11 @@ export interface ProductDraft {
 }
 
 export function emptyDraft(): ProductDraft {
-  return { sku: '', name: '', description: '', nominalQuantity: '', unit: 'g', tareMode: 'none', fixedTare: '', tareUnit: '', density: '', rulebook: 'eu-76-211', alpha: '', minimumSampleSize: '', alertRecipients: '' };
+  return { sku: '', name: '', description: '', nominalQuantity: '', unit: 'g', tareMode: 'none', fixedTare: '', tareUnit: '', density: '', rulebook: 'eu-76-211', nonDestructivePlan: 'double', alpha: '', minimumSampleSize: '', alertRecipients: '' };
 }
 
 export function draftOf(p: Product): ProductDraft {
-  const params = (p.rulebook.params ?? {}) as { alpha?: number; minimumSampleSize?: number };
+  const params = (p.rulebook.params ?? {}) as { alpha?: number; minimumSampleSize?: number; nonDestructivePlan?: string };
   return {
     sku: p.sku,
     name: p.name,
@@ -42,6 +44,7 @@ export function draftOf(p: Product): ProductDraft {
     tareUnit: p.tareUnit ?? '',
     density: p.density === null ? '' : String(p.density),
     rulebook: p.rulebook.id,
+    nonDestructivePlan: params.nonDestructivePlan === 'single' ? 'single' : 'double',
     alpha: params.alpha === undefined ? '' : String(params.alpha),
     minimumSampleSize: params.minimumSampleSize === undefined ? '' : String(params.minimumSampleSize),
     alertRecipients: p.alertRecipients.join(', '),
@@ -68,6 +71,9 @@ export function productInputOf(d: ProductDraft): ProductInput {
   if (d.tareMode === 'fixed') input.fixedTare = d.fixedTare.trim() === '' ? null : num(d.fixedTare);
   if (d.tareMode !== 'none' && d.tareUnit) input.tareUnit = d.tareUnit;
   if (d.density.trim()) input.density = num(d.density);
+  if (d.rulebook === 'eu-76-211' && d.nonDestructivePlan === 'single') {
+    (input.rulebook as Record<string, unknown>).params = { nonDestructivePlan: 'single' };
+  }
   if (d.rulebook === 'custom') {
     const params: Record<string, unknown> = {};
     if (d.alpha.trim()) params.alpha = num(d.alpha);

@@ -11,6 +11,9 @@
  *   lot 100 to 500), 50 (non-destructive, over 500), 20 (destructive).
  * - Lots under 100 packs: non-destructive checking is 100 %, destructive testing is not used
  *   (Annex II, 2.1).
+ * - Parameter `nonDestructivePlan: 'single'`: the single sampling plan the UK reference test offers
+ *   beside the double one (SI 2006/659 Schedule 2, para 3.3–3.5, as made): lots 100–500 → 50 packs,
+ *   accept ≤ 3, reject ≥ 4; 501–3 200 → 80, 5 / 6; 3 201 and over → 125, 7 / 8. No second sample.
  *
  * Choices the Directive leaves open, made here and stated in the verdict:
  * - every measured pack is used: λ is computed for the actual n (equal to the printed factor when
@@ -39,7 +42,15 @@ export const EU_76_211_INFO: RulebookInfo = {
     'Council Directive 76/211/EEC of 20 January 1976, as amended by Commission Directive 78/891/EEC: Annex I 1.1–1.3, 2.2, 2.4; Annex II 2.1–2.3',
   provenance:
     'TNE table, sampling plans and mean-check factors as printed in the Directive (Annex I 2.4, Annex II 2.2, 2.3). A lot under 100 packs checked in full may have defectives up to 5 % of the lot, as in the UK reference test (SI 2006/659 Schedule 2, para 3.6, as made); the 2.5 % T1 allowance for a lot of 100 or more checked in full is common practice (from memory; verify).',
-  parameters: [],
+  parameters: [
+    {
+      name: 'nonDestructivePlan',
+      type: 'string',
+      description: "non-destructive sampling plan: 'double' (Directive Annex II 2.2.1) or 'single' (UK SI 2006/659 Schedule 2, para 3.3–3.5)",
+      default: 'double',
+      allowed: ['double', 'single'],
+    },
+  ],
 };
 
 export interface StagePlan {
@@ -50,7 +61,7 @@ export interface StagePlan {
 
 export type EuPlan =
   | { kind: 'full' }
-  | { kind: 'single'; first: StagePlan; meanN: number }
+  | { kind: 'single'; first: StagePlan; meanN: number; source: string }
   | { kind: 'double'; first: StagePlan; second: StagePlan; meanN: number };
 
 /** Directive 76/211/EEC Annex II 2.2.1: non-destructive double sampling plan by lot size. */
@@ -58,6 +69,13 @@ export const EU_DOUBLE_PLANS: readonly { minLot: number; maxLot: number; first: 
   { minLot: 100, maxLot: 500, first: { n: 30, accept: 1, reject: 3 }, second: { n: 30, accept: 4, reject: 5 } },
   { minLot: 501, maxLot: 3200, first: { n: 50, accept: 2, reject: 5 }, second: { n: 50, accept: 6, reject: 7 } },
   { minLot: 3201, maxLot: Number.POSITIVE_INFINITY, first: { n: 80, accept: 3, reject: 7 }, second: { n: 80, accept: 8, reject: 9 } },
+];
+
+/** UK SI 2006/659 Schedule 2 para 3.3–3.5 (as made): the non-destructive single sampling plan by lot size. */
+export const UK_SINGLE_PLANS: readonly { minLot: number; maxLot: number; plan: StagePlan }[] = [
+  { minLot: 100, maxLot: 500, plan: { n: 50, accept: 3, reject: 4 } },
+  { minLot: 501, maxLot: 3200, plan: { n: 80, accept: 5, reject: 6 } },
+  { minLot: 3201, maxLot: Number.POSITIVE_INFINITY, plan: { n: 125, accept: 7, reject: 8 } },
 ];
 
 /** Directive 76/211/EEC Annex II 2.2.2: destructive single sampling plan, any lot of 100 or more. */
@@ -69,12 +87,22 @@ export function euMeanSampleSize(lotSize: number, testing: 'destructive' | 'non-
   return lotSize <= 500 ? 30 : 50;
 }
 
-/** The sampling plan of Annex II for a lot, or null when the Directive allows no such testing (destructive, lot < 100). */
-export function euPlan(lotSize: number, testing: 'destructive' | 'non-destructive'): EuPlan | null {
+/** The sampling plan for a lot, or null when the Directive allows no such testing (destructive, lot < 100). */
+export function euPlan(lotSize: number, testing: 'destructive' | 'non-destructive', nonDestructivePlan: 'double' | 'single' = 'double'): EuPlan | null {
   if (lotSize < 100) return testing === 'destructive' ? null : { kind: 'full' };
-  if (testing === 'destructive') return { kind: 'single', first: EU_DESTRUCTIVE_PLAN, meanN: 20 };
+  if (testing === 'destructive') return { kind: 'single', first: EU_DESTRUCTIVE_PLAN, meanN: 20, source: 'Annex II 2.2.2' };
+  const meanN = euMeanSampleSize(lotSize, testing);
+  if (nonDestructivePlan === 'single') {
+    const single = UK_SINGLE_PLANS.find((r) => lotSize >= r.minLot && lotSize <= r.maxLot)!;
+    return { kind: 'single', first: single.plan, meanN, source: 'UK SI 2006/659 Sch. 2 para 3.3–3.5' };
+  }
   const row = EU_DOUBLE_PLANS.find((r) => lotSize >= r.minLot && lotSize <= r.maxLot)!;
-  return { kind: 'double', first: row.first, second: row.second, meanN: euMeanSampleSize(lotSize, testing) };
+  return { kind: 'double', first: row.first, second: row.second, meanN };
+}
+
+/** The non-destructive plan a product's rulebook parameters choose (validated by `validate`). */
+function planChoice(input: LotInput): 'double' | 'single' {
+  return input.product.rulebook.params?.nonDestructivePlan === 'single' ? 'single' : 'double';
 }
 
 /** T1 allowance when every pack of a lot of n packs is checked, with the words that say where it comes from. */
@@ -88,6 +116,10 @@ export function fullCheckT1Allowance(n: number): { allowed: number; basis: strin
 function validate(input: LotInput): ReturnType<Rulebook['validate']> {
   const tne = tolerableNegativeError(input.product.nominalQuantity, input.product.unit, 'eu-76-211');
   if (!tne.ok) return engineError('outside-rulebook-scope', `eu-76-211: ${tne.reason}`, '/product/nominalQuantity');
+  const choice = input.product.rulebook.params?.nonDestructivePlan;
+  if (choice !== undefined && choice !== 'double' && choice !== 'single') {
+    return engineError('invalid-parameter', "nonDestructivePlan must be 'double' or 'single'", '/product/rulebook/params/nonDestructivePlan');
+  }
   const { lotSize, testing } = input.lot;
   if (euPlan(lotSize, testing) === null) {
     return engineError(
@@ -107,7 +139,7 @@ function judge(ctx: JudgeContext): Judgement | { error: ReturnType<typeof engine
   const tne = tneRes.value;
   const t1Limit = qn - tne;
   const t2Limit = qn - 2 * tne;
-  const plan = euPlan(lotSize, testing)!;
+  const plan = euPlan(lotSize, testing, planChoice(input))!;
   const n = net.length;
   const meanTest = { hypothesisedMean: qn, alternative: 'less' as const, alpha: 0.005, unit };
   const base = { meanTest, tne: { value: tne, baseValue: tneRes.baseValue }, warnings: [] as string[] };
@@ -183,7 +215,7 @@ function judge(ctx: JudgeContext): Judgement | { error: ReturnType<typeof engine
   const larger = n > plan.first.n ? `; applied to all ${n} packs measured` : '';
   const planText =
     plan.kind === 'single'
-      ? `in a destructive sample of ${plan.first.n} (Annex II 2.2.2${larger})`
+      ? `in a ${testing} sample of ${plan.first.n} (${plan.source}${larger})`
       : `in a first sample of ${plan.first.n} (Annex II 2.2.1${larger})`;
   const t1c = t1Criterion(t1.count, t1Limit, tne, unit, plan.first.accept, plan.first.reject, planText);
   return {
