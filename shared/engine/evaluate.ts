@@ -83,10 +83,13 @@ export function evaluateLot(input: LotInput): EngineResult {
   const warnings = judged.warnings.slice();
   const tne = judged.tne;
   const tareSd = converted.data.tareSampleStandardDeviation;
-  // Tare-sample spread against TNE: above 0.25 × TNE, per-pack tares are advisable (threshold from memory; verify).
+  // Tare-sample spread against TNE: above 0.25 × TNE an average tare is not used but every pack's tare
+  // is weighed — the limit of Brazil's INMETRO Portaria nº 248 of 17 July 2008 (for packaging over 5 %
+  // of Qn; read as quoted by a secondary page, not from the Portaria's own text); other authorities
+  // may set their own.
   if (tne !== null && tareSd !== null && tareSd > 0.25 * tne.value) {
     warnings.push(
-      `the tare sample's standard deviation ${formatNumber(tareSd)} ${unit} exceeds 0.25 × TNE (${formatNumber(0.25 * tne.value)} ${unit}); weigh the tare of every pack instead (threshold from memory; verify)`,
+      `the tare sample's standard deviation ${formatNumber(tareSd)} ${unit} exceeds 0.25 × TNE (${formatNumber(0.25 * tne.value)} ${unit}); weigh the tare of every pack instead (the limit of INMETRO Portaria nº 248/2008 for an average tare)`,
     );
   }
 

@@ -47,6 +47,12 @@ describe('gross to net, units and density (units exact per NIST SP 811)', () => 
     const wild = verdictOf(lotInput({ tareMode: 'sample' }, { measurements: ramp(30, 522, 2), tareSample: [10, 20, 30] }));
     expect(wild.warnings.join(' ')).toMatch(/tare sample/);
   });
+  it('warns on the tare sample at 0.25 × TNE, the limit of INMETRO Portaria nº 248/2008 for an average tare', () => {
+    // Qn 500 g: TNE 15 g (Directive 76/211/EEC Annex I 2.4), so the limit is 3.75 g of standard deviation.
+    const at = (tareSample: number[]) => verdictOf(lotInput({ tareMode: 'sample' }, { measurements: ramp(30, 522, 2), tareSample })).warnings;
+    expect(at([16.3, 20, 23.7])).toEqual([]); // s = 3.7 g
+    expect(at([16.2, 20, 23.8]).join(' ')).toMatch(/exceeds 0\.25 × TNE \(3\.75 g\).*INMETRO Portaria nº 248\/2008/); // s = 3.8 g
+  });
   it('converts mass to a declared volume through the density at 20 °C (net volume = net mass / density)', () => {
     const v = verdictOf(lotInput({ unit: 'mL', density: 1.03 }, { measurementUnit: 'g', measurements: ramp(30, 515, 1) }));
     expect(v.statistics.descriptive.mean).toBeCloseTo(500, 10);
