@@ -39,7 +39,7 @@ export const EU_76_211_INFO: RulebookInfo = {
   version: '1976-78.2',
   title: 'EU average system for prepackages (Directive 76/211/EEC)',
   source:
-    'Council Directive 76/211/EEC of 20 January 1976, as amended by Commission Directive 78/891/EEC: Annex I 1.1–1.3, 2.2, 2.4; Annex II 2.1–2.3',
+    'Council Directive 76/211/EEC of 20 January 1976, as amended by Commission Directive 78/891/EEC: Annex I 1.1–1.3, 2.2, 2.4; Annex II 2.1–2.3; for lots under 100 checked in full and the optional single plan, UK SI 2006/659 Schedule 2 para 3.3–3.6 (as made)',
   provenance:
     'TNE table, sampling plans and mean-check factors as printed in the Directive (Annex I 2.4, Annex II 2.2, 2.3). A lot under 100 packs checked in full may have defectives up to 5 % of the lot, as in the UK reference test (SI 2006/659 Schedule 2, para 3.6, as made); the 2.5 % T1 allowance for a lot of 100 or more checked in full is common practice (from memory; verify).',
   parameters: [
