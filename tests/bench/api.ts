@@ -4,7 +4,7 @@
 // JSON.parse of the same body. Prints numbers; it is not a timed test.
 import { spawn, type ChildProcess } from 'node:child_process';
 import { mkdtempSync, readdirSync, readFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { cpus, loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import autocannon from 'autocannon';
 import { openDatabase } from '../../server/db/database';
@@ -140,6 +140,9 @@ async function main() {
     measurements: packContents(seededRng(7), 50, 503, 2),
   };
   const body = JSON.stringify(lot);
+  // What the numbers ran on: server, PostgreSQL and autocannon share these cores, so a ratio of two
+  // runs of the same script is what compares; absolute rates move with the machine.
+  console.log(`\nmachine: ${cpus().length} × ${cpus()[0]?.model.trim() ?? 'unknown CPU'}, Node ${process.version}, load average ${loadavg().map((x) => x.toFixed(2)).join(' ')}`);
   console.log(`\nPOST of one lot of 50 measurements, ${CONNECTIONS} connections, ${DURATION} s (after a 2 s warm-up):`);
   const bare = ONLY.has('bare') ? await run(`http://127.0.0.1:${barePort}/bare`, { 'content-type': 'application/json' }, body, 'bare Express + pg insert', bareChild.pid) : null;
   const waits = process.env.BENCH_WAITS ? sampleWaits(db) : null;
