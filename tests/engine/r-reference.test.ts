@@ -11,6 +11,7 @@ import { tTest } from '../../shared/engine/inference/meanTest';
 import { shapiroWilk } from '../../shared/engine/assumptions/shapiroWilk';
 import { wilcoxonSignedRank } from '../../shared/engine/inference/wilcoxonSignedRank';
 import { studentTLowerTail, studentTQuantile, studentTUpperTail } from '../../shared/engine/distributions/studentT';
+import { meanCheckFactor } from '../../shared/engine/rulebooks/criteria';
 import type { Alternative } from '../../shared/engine/types';
 
 const ALTERNATIVES: readonly Alternative[] = ['less', 'greater', 'two-sided'];
@@ -81,6 +82,10 @@ const pGrid: { id: string; t: number; df: number }[] = [];
   }
 }
 
+// Sample sizes of the shipped plans (Directive Annex II 2.2–2.3, UK SI 2006/659 Sch. 2 para 3.3, and
+// the OIML plan): their mean-check factors λ = t(0.995; n − 1)/√n against R's qt.
+const PLAN_SIZES = [10, 13, 20, 30, 50, 60, 80, 100, 125, 160];
+
 let R: Map<string, (number | null)[]>;
 
 beforeAll(() => {
@@ -92,6 +97,7 @@ beforeAll(() => {
   for (const c of wCases) tasks.push({ kind: 'W', id: c.id, alternative: c.alternative, mu: c.mu, exact: c.exact, x: c.x });
   for (const q of qGrid) tasks.push({ kind: 'Q', ...q });
   for (const p of pGrid) tasks.push({ kind: 'P', ...p });
+  for (const n of PLAN_SIZES) tasks.push({ kind: 'Q', id: `lambda${n}`, p: 0.995, df: n - 1 });
   R = runR(tasks);
 }, 120_000);
 
@@ -161,6 +167,13 @@ describe('Wilcoxon signed-rank against R wilcox.test', () => {
 describe('Student t distribution against R qt and pt', () => {
   it('quantiles agree with qt(p, df) to 1e-10 relative', () => {
     for (const q of qGrid) expectClose(`qt(${q.p}, ${q.df})`, studentTQuantile(q.p, q.df), rValues(q.id)[0]!, 1e-10, 1e-15);
+  });
+  it('the mean-check factor of every plan size agrees with qt(0.995, n - 1) / sqrt(n) to 1e-10 relative', () => {
+    for (const n of PLAN_SIZES) expectClose(`λ(${n})`, meanCheckFactor(n), rValues(`lambda${n}`)[0]! / Math.sqrt(n), 1e-10);
+    // The same arithmetic, to the three decimals tables print: Annex II 2.3.3 (n 20, 30, 50) and the
+    // λ column of the OIML plan (n 10, 13, 80, 125; arithmetic on t, per the rules reference page).
+    const printed = Object.fromEntries(PLAN_SIZES.map((n) => [n, (rValues(`lambda${n}`)[0]! / Math.sqrt(n)).toFixed(3)]));
+    expect(printed).toMatchObject({ 10: '1.028', 13: '0.847', 20: '0.640', 30: '0.503', 50: '0.379', 80: '0.295', 125: '0.234' });
   });
   it('both tails agree with pt(t, df) to 1e-10 relative (1e-15 absolute for tiny tails)', () => {
     for (const p of pGrid) {
