@@ -101,17 +101,17 @@ export function createApp(ctx: AppContext): Express {
   app.use(cookieParser());
   const meter = createMeter(ctx);
   app.use((req, res, next) => (API_PATH.test(req.path) ? authenticate(req, res, (err?: unknown) => void meter(req, res, next, err)) : next()));
-  for (const op of operations) {
-    app[op.method](expressPath(op.path), authorize(op.access, op.operationId));
-  }
-  // Bodies are read only once the caller is known and may call the operation: nobody without a
-  // valid credential makes the server read or parse a body (up to the body limit), and for a large
-  // lot the credential check runs while the body is still arriving.
+  // Bodies are read only for a declared operation, once the caller is known and may call it: nobody
+  // without a valid credential (or on an undeclared path) makes the server read or parse a body, and
+  // for a large lot the credential check runs while the body is still arriving.
   //
   // The raw bytes of a JSON body stay on the request (a reference, not a copy): an Idempotency-Key
   // fingerprints the body as sent rather than serialising a parsed million-value lot again.
-  app.use(express.json({ limit, type: ['application/json', 'application/*+json'], verify: (req, _res, buf) => void ((req as express.Request).rawBody = buf) }));
-  app.use(express.text({ limit, type: ['text/csv', 'text/plain'] }));
+  const jsonBody = express.json({ limit, type: ['application/json', 'application/*+json'], verify: (req, _res, buf) => void ((req as express.Request).rawBody = buf) });
+  const textBody = express.text({ limit, type: ['text/csv', 'text/plain'] });
+  for (const op of operations) {
+    app[op.method](expressPath(op.path), authorize(op.access, op.operationId), jsonBody, textBody);
+  }
   memoiseValidatorRouteRegexps();
   app.use(
     OpenApiValidator.middleware({

@@ -51,7 +51,7 @@ describe('client errors are problem details, never 5xx', () => {
   });
 
   it('malformed JSON is a 400 problem that says the body is not valid JSON', async () => {
-    const res = await request(t.app).post('/v1/me').set('Content-Type', 'application/json').send('{"lotCode": ');
+    const res = await request(t.app).post('/v1/session').set('Content-Type', 'application/json').send('{"email": ');
     expectProblem(res, 400);
     expect(res.body.detail).toMatch(/not valid JSON/);
   });
@@ -65,6 +65,9 @@ describe('client errors are problem details, never 5xx', () => {
     const allowed = await request(t.app).post('/v1/lots').set('Authorization', `Bearer ${submitKey}`).set('Content-Type', 'application/json').send(bad);
     expectProblem(allowed, 400);
     expect(allowed.body.detail).toMatch(/not valid JSON/);
+    // An undeclared path or method never has its body read: 404 / 405, not 400.
+    expectProblem(await request(t.app).post('/v1/no-such-thing').set('Content-Type', 'application/json').send(bad), 404);
+    expectProblem(await request(t.app).post('/v1/me').set('Authorization', `Bearer ${key}`).set('Content-Type', 'application/json').send(bad), 405);
   });
 
   it('a body of a content type the operation does not take is a 415 problem', async () => {
