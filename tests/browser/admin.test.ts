@@ -118,7 +118,7 @@ describe('the other admin views', () => {
     expect(await page.locator('[data-role]').innerText()).toBe('Quality engineer');
   });
 
-  it('lets a quality engineer define a product with the API schema’s messages, at tablet width', async () => {
+  it('lets a quality engineer define a product with the API schema’s messages and the UK single plan, at tablet width', async () => {
     await seedProduct(h, { name: 'Sunflower oil 1 L', sku: 'OIL-1L', nominalQuantity: 1000, unit: 'mL', tareMode: 'none', fixedTare: null, density: 0.92 });
     const { page } = await h.open({ width: 820, height: 1100 });
     await signIn(page, h.users.quality);
@@ -139,8 +139,11 @@ describe('the other admin views', () => {
     await page.getByLabel('Name', { exact: true }).fill('Blossom honey 340 g');
     await page.getByLabel('Nominal quantity Qn').fill('340');
     await page.locator('[data-tne]').waitFor();
+    // The UK single plan (SI 2006/659 Sch. 2 para 3.3–3.5), chosen from the eu-76-211 options.
+    await page.locator('[data-choice="Non-destructive sampling plan"]').click();
+    await page.getByRole('option', { name: /Single plan of the UK reference test/ }).click();
     await page.locator('[data-save-product]').click();
     await page.waitForURL(/\/products$/);
-    await page.locator('[data-product="HONEY-340G"]').waitFor();
+    await page.locator('[data-product="HONEY-340G"]').getByText('UK single plan').waitFor();
   });
 });
