@@ -100,9 +100,10 @@ export function euPlan(lotSize: number, testing: 'destructive' | 'non-destructiv
   return { kind: 'double', first: row.first, second: row.second, meanN };
 }
 
-/** The non-destructive plan a product's rulebook parameters choose (validated by `validate`). */
-function planChoice(input: LotInput): 'double' | 'single' {
-  return input.product.rulebook.params?.nonDestructivePlan === 'single' ? 'single' : 'double';
+/** The non-destructive plan a product's rulebook parameters choose (default double); null when the name is unknown. */
+function planChoice(input: LotInput): 'double' | 'single' | null {
+  const choice = input.product.rulebook.params?.nonDestructivePlan ?? 'double';
+  return choice === 'double' || choice === 'single' ? choice : null;
 }
 
 /** T1 allowance when every pack of a lot of n packs is checked, with the words that say where it comes from. */
@@ -116,8 +117,7 @@ export function fullCheckT1Allowance(n: number): { allowed: number; basis: strin
 function validate(input: LotInput): ReturnType<Rulebook['validate']> {
   const tne = tolerableNegativeError(input.product.nominalQuantity, input.product.unit, 'eu-76-211');
   if (!tne.ok) return engineError('outside-rulebook-scope', `eu-76-211: ${tne.reason}`, '/product/nominalQuantity');
-  const choice = input.product.rulebook.params?.nonDestructivePlan;
-  if (choice !== undefined && choice !== 'double' && choice !== 'single') {
+  if (planChoice(input) === null) {
     return engineError('invalid-parameter', "nonDestructivePlan must be 'double' or 'single'", '/product/rulebook/params/nonDestructivePlan');
   }
   const { lotSize, testing } = input.lot;
@@ -139,7 +139,7 @@ function judge(ctx: JudgeContext): Judgement | { error: ReturnType<typeof engine
   const tne = tneRes.value;
   const t1Limit = qn - tne;
   const t2Limit = qn - 2 * tne;
-  const plan = euPlan(lotSize, testing, planChoice(input))!;
+  const plan = euPlan(lotSize, testing, planChoice(input) ?? 'double')!;
   const n = net.length;
   const meanTest = { hypothesisedMean: qn, alternative: 'less' as const, alpha: 0.005, unit };
   const base = { meanTest, tne: { value: tne, baseValue: tneRes.baseValue }, warnings: [] as string[] };
