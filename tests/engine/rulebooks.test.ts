@@ -208,6 +208,7 @@ describe('eu-76-211 with the UK single plan (nonDestructivePlan: single)', () =>
     const r = evaluateLot(lotInput({ rulebook: { id: 'eu-76-211', params: { nonDestructivePlan: 'triple' as never } } }, { measurements: ramp(30, 503, 2) }));
     expect(r.ok).toBe(false);
     if (!r.ok) expect(r.error.pointer).toBe('/product/rulebook/params/nonDestructivePlan');
+    expect(evaluateLot(lotInput({ rulebook: { id: 'eu-76-211', params: { nonDestructivePlan: null as never } } }, { measurements: ramp(30, 503, 2) })).ok).toBe(false);
   });
 });
 

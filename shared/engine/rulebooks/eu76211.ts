@@ -102,7 +102,8 @@ export function euPlan(lotSize: number, testing: 'destructive' | 'non-destructiv
 
 /** The non-destructive plan a product's rulebook parameters choose (default double); null when the name is unknown. */
 function planChoice(input: LotInput): 'double' | 'single' | null {
-  const choice = input.product.rulebook.params?.nonDestructivePlan ?? 'double';
+  const given: unknown = input.product.rulebook.params?.nonDestructivePlan;
+  const choice = given === undefined ? 'double' : given;
   return choice === 'double' || choice === 'single' ? choice : null;
 }
 
