@@ -19,6 +19,13 @@ export function ramp(n: number, centre: number, halfWidth: number): number[] {
   return Array.from({ length: n }, (_, i) => centre + (n === 1 ? 0 : halfWidth * (2 * i / (n - 1) - 1)));
 }
 
+/** A ramp of n packs around `centre` with `count` of them, every `stride`-th from the first, set to `value`. */
+export function withPacksAt(n: number, centre: number, count: number, value: number, stride: number): number[] {
+  const xs = ramp(n, centre, 1.5);
+  for (let i = 0; i < count; i++) xs[i * stride] = value;
+  return xs;
+}
+
 /** Interleaves a ramp so that production order is not monotone. */
 export function shuffled(xs: number[]): number[] {
   const out: number[] = [];

@@ -2,7 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { evaluateLot, listRulebooks } from '../../shared/engine';
 import { meanCheckFactor } from '../../shared/engine/rulebooks/criteria';
 import { EU_DESTRUCTIVE_PLAN, EU_DOUBLE_PLANS, euPlan, UK_SINGLE_PLANS } from '../../shared/engine/rulebooks/eu76211';
-import { lotInput, ramp, shuffled, verdictOf } from './helpers';
+import { lotInput, ramp, shuffled, verdictOf, withPacksAt } from './helpers';
 
 describe('mean-check factor λ = t(0.995; n − 1)/√n (Directive 76/211/EEC Annex II 2.3.3)', () => {
   it.each([
@@ -125,11 +125,7 @@ describe('eu-76-211 decisions (Directive 76/211/EEC Annex I 1.1–1.3, Annex II 
     [99, 4], // 5 % of 99 = 4.95: 4 may be defective, 5 may not
   ])('a lot of %d checked in full may have %d defectives, 5 per cent of it (UK SI 2006/659 Sch. 2 para 3.6)', (lotSize, allowed) => {
     // TNE for Qn 500 g is 15 g (Annex I 2.4): T1 = 485 g, T2 = 470 g; 484 g is below T1 only.
-    const lot = (defectives: number) => {
-      const xs = ramp(lotSize, 506, 1.5);
-      for (let i = 0; i < defectives; i++) xs[i * 3] = 484;
-      return verdictOf(lotInput({}, { lotSize, measurements: xs }));
-    };
+    const lot = (defectives: number) => verdictOf(lotInput({}, { lotSize, measurements: withPacksAt(lotSize, 506, defectives, 484, 3) }));
     const ok = lot(allowed);
     expect(ok.criteria.find((c) => c.id === 't1')).toMatchObject({ observed: allowed, passed: true });
     expect(ok.criteria.find((c) => c.id === 't1')!.sentence).toMatch(/5 % of the lot; UK SI 2006\/659 Sch\. 2 para 3\.6/);
@@ -138,8 +134,7 @@ describe('eu-76-211 decisions (Directive 76/211/EEC Annex I 1.1–1.3, Annex II 
   });
 
   it('allows 2.5 % defectives in a lot of 100 or more measured in full (common practice; from memory; verify)', () => {
-    const xs = ramp(200, 506, 1.5);
-    for (let i = 0; i < 5; i++) xs[i * 7] = 484;
+    const xs = withPacksAt(200, 506, 5, 484, 7);
     const five = verdictOf(lotInput({}, { lotSize: 200, measurements: xs }));
     expect(five.criteria.find((c) => c.id === 't1')).toMatchObject({ observed: 5, passed: true });
     xs[199] = 484;
@@ -185,11 +180,7 @@ describe('eu-76-211 with the UK single plan (nonDestructivePlan: single)', () =>
 
   it('decides a lot of 400 on 50 packs with no second sample: 3 defectives pass, 4 fail', () => {
     // TNE for Qn 500 g is 15 g (Annex I 2.4): 484 g is below T1 = 485 g and above T2 = 470 g.
-    const lot = (defectives: number) => {
-      const xs = ramp(50, 506, 1.5);
-      for (let i = 0; i < defectives; i++) xs[i * 5] = 484;
-      return verdictOf(lotInput(single, { lotSize: 400, measurements: xs }));
-    };
+    const lot = (defectives: number) => verdictOf(lotInput(single, { lotSize: 400, measurements: withPacksAt(50, 506, defectives, 484, 5) }));
     expect(verdictOf(lotInput(single, { lotSize: 400, measurements: ramp(30, 506, 1.5) })).criteria[0]).toMatchObject({ id: 'sample-size', limit: 50, passed: false });
     const three = lot(3);
     expect(three.criteria.find((c) => c.id === 't1')).toMatchObject({ observed: 3, passed: true });
@@ -199,9 +190,7 @@ describe('eu-76-211 with the UK single plan (nonDestructivePlan: single)', () =>
     expect(four.criteria.find((c) => c.id === 't1')).toMatchObject({ observed: 4, passed: false });
     expect(four.decision).toBe('nonconforming');
     // The Directive's double plan on the same 50 packs (first sample 30, accept ≤ 1, reject ≥ 3; Annex II 2.2.1) rejects at 3.
-    const xs = ramp(50, 506, 1.5);
-    for (let i = 0; i < 3; i++) xs[i * 5] = 484;
-    expect(verdictOf(lotInput({}, { lotSize: 400, measurements: xs })).decision).toBe('nonconforming');
+    expect(verdictOf(lotInput({}, { lotSize: 400, measurements: withPacksAt(50, 506, 3, 484, 5) })).decision).toBe('nonconforming');
   });
 
   it('refuses a plan name it does not know, naming the parameter', () => {
