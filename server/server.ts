@@ -10,6 +10,7 @@ import { startJobs, type RunningJobs } from './jobs';
 import { currentSigningKey, publishSigningKey } from './services/signing-keys';
 import { secretBox } from './services/secret-box';
 import { resealWebhookSecrets } from './services/webhooks';
+import { startAsideWorker } from './services/canonical-aside';
 
 export interface RunningServer {
   url: string;
@@ -31,6 +32,8 @@ export async function startServer(config: Config & { databaseUrl: string }, logg
     logger.warn(`${sealed.unreadable} stored webhook secret(s) do not open with this server's secrets key (LOTPROOF_SECRETS_KEY or <dataDir>/secrets-key); their deliveries will fail until the key that sealed them is configured`);
   }
   const app = createApp(ctx);
+  // The thread that writes big lots' numbers beside the engine, loaded before the first one arrives.
+  startAsideWorker();
   const jobs: RunningJobs | null = config.verdicts.runJobs ? await startJobs(ctx) : null;
   const server = await new Promise<Server>((resolve, reject) => {
     const s = app.listen(config.port, config.host, () => resolve(s));

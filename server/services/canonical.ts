@@ -45,7 +45,7 @@ export function numberArrayJson(a: ArrayLike<number>): string {
 
 /** The bytes of numberArrayJson(a) (ASCII), in a buffer of their own; null when a holds anything
  *  but finite numbers. */
-function numberArrayJsonOrNull(a: ArrayLike<unknown>): Buffer | null {
+export function numberArrayJsonOrNull(a: ArrayLike<unknown>): Buffer | null {
   const n = a.length;
   // Typical measurements (up to 3 integer digits and 3 decimals, and a comma) need 8 bytes each.
   let buf = scratch.length >= 8 * n + 64 ? scratch : (scratch = Buffer.allocUnsafe(8 * n + 64));
@@ -116,7 +116,11 @@ const SURROGATE = /[\uD800-\uDFFF]/;
 /** Pieces of canonical text: strings, and the ASCII bytes of number arrays. */
 type Piece = string | Buffer;
 
-function walk(value: unknown, out: Piece[]): void {
+/** Canonical bytes already written for some arrays of a value (by identity), e.g. by a worker thread. */
+export type KnownArrays = ReadonlyMap<unknown, Buffer>;
+const NONE: KnownArrays = new Map();
+
+function walk(value: unknown, out: Piece[], known: KnownArrays): void {
   if (value === null || typeof value !== 'object') {
     if (typeof value === 'number' && !Number.isFinite(value)) throw new CanonicalisationError('a number in the record is not finite');
     if (value === undefined || typeof value === 'function' || typeof value === 'symbol') {
@@ -138,7 +142,7 @@ function walk(value: unknown, out: Piece[]): void {
     return;
   }
   if (Array.isArray(value)) {
-    const numbers = value.length > 8 ? numberArrayJsonOrNull(value) : null;
+    const numbers = value.length > 8 ? (known.get(value) ?? numberArrayJsonOrNull(value)) : null;
     if (numbers !== null) {
       out.push(numbers);
       return;
@@ -146,13 +150,13 @@ function walk(value: unknown, out: Piece[]): void {
     out.push('[');
     for (let i = 0; i < value.length; i++) {
       if (i > 0) out.push(',');
-      walk(value[i] === undefined ? null : value[i], out);
+      walk(value[i] === undefined ? null : value[i], out, known);
     }
     out.push(']');
     return;
   }
   if (typeof (value as { toJSON?: unknown }).toJSON === 'function') {
-    walk((value as { toJSON: () => unknown }).toJSON(), out);
+    walk((value as { toJSON: () => unknown }).toJSON(), out, known);
     return;
   }
   const obj = value as Record<string, unknown>;
@@ -162,9 +166,9 @@ function walk(value: unknown, out: Piece[]): void {
   out.push('{');
   keys.forEach((k, i) => {
     if (i > 0) out.push(',');
-    walk(k, out);
+    walk(k, out, known);
     out.push(':');
-    walk(obj[k], out);
+    walk(obj[k], out, known);
   });
   out.push('}');
 }
@@ -172,7 +176,7 @@ function walk(value: unknown, out: Piece[]): void {
 /** The RFC 8785 canonical JSON text of a JSON value. */
 export function canonicalJson(value: unknown): string {
   const out: Piece[] = [];
-  walk(value, out);
+  walk(value, out, NONE);
   // A big piece (a lot's measurements) is concatenated, not copied again by join.
   let s = '';
   let from = 0;
@@ -191,10 +195,12 @@ export function canonicalJson(value: unknown): string {
  * measurements go from the number writer's bytes straight into the result, and the text around
  * them is encoded once. (A text holding one non-Latin-1 character is stored by V8 at two bytes
  * per character; a 7 MB lot would be widened to 14 MB and encoded again for every use.)
+ * `known` holds the bytes of number arrays written beforehand (canonical-aside.ts); they must be
+ * what numberArrayJsonOrNull gives for those arrays.
  */
-export function canonicalJsonBytes(value: unknown): Buffer {
+export function canonicalJsonBytes(value: unknown, known: KnownArrays = NONE): Buffer {
   const out: Piece[] = [];
-  walk(value, out);
+  walk(value, out, known);
   return joinPieces(out);
 }
 

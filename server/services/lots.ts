@@ -11,6 +11,7 @@ import { appendVerdict, keyReusedProblem, newVerdictId, SUBMIT_OPERATION, type A
 import { readCsvLot } from './lot-csv';
 import type { Principal } from './principal';
 import { specOf } from './products';
+import { writeNumberArraysAside } from './canonical-aside';
 import { canonicalContentParts, RECORD_FORMAT, type RecordContent, type VerdictRecord } from './verdict-records';
 import { recordLotUsage } from './usage';
 
@@ -255,6 +256,8 @@ export async function submitLot(
   }
 
   const input: LotInput = { product: spec, lot };
+  // A big lot's numbers are written as canonical JSON on a worker thread while the engine runs here.
+  const aside = writeNumberArraysAside([lot.measurements, lot.tares, lot.previousSample, lot.previousTares]);
   const judged = evaluateLot(input);
   if (!judged.ok) throw engineProblem(judged.error, { fieldPointer, valuePointer, productField: productId && !first ? 'productId' : 'sku' });
   const result: EngineVerdict = judged.verdict;
@@ -278,7 +281,7 @@ export async function submitLot(
   const outcome = await appendVerdict(sequelize, config, {
     verdictId,
     organisationId: org,
-    parts: canonicalContentParts(content),
+    parts: canonicalContentParts(content, await aside),
     row: {
       id: verdictId,
       organisation_id: org,

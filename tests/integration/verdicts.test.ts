@@ -107,6 +107,49 @@ describe('the offline verifier', () => {
   }, 120_000);
 });
 
+describe('a big lot', () => {
+  it('is sealed the same when its numbers are written on the worker thread: the offline verifier accepts it, recompute agrees', async () => {
+    const { execFileSync } = await import('node:child_process');
+    const { mkdtempSync, rmSync, writeFileSync } = await import('node:fs');
+    const { join } = await import('node:path');
+    const { tmpdir } = await import('node:os');
+    const { ASIDE_MIN_LENGTH, asideWorkerReady, startAsideWorker } = await import('../../server/services/canonical-aside');
+    startAsideWorker();
+    for (let i = 0; i < 300 && !asideWorkerReady(); i++) await new Promise((r) => setTimeout(r, 50));
+    expect(asideWorkerReady()).toBe(true);
+
+    const values = measurements(77, ASIDE_MIN_LENGTH + 12_345, 503, 2);
+    values[5] = 499; // an integer, as a checkweigher may send one
+    const created = await request(t.app).post('/v1/lots').set(auth()).send(lotBody(product.sku, 77, { lotSize: 200_000, measurements: values }));
+    expect(created.status).toBe(201);
+    expect(created.body.lot.measurementCount).toBe(values.length);
+
+    const exp = await request(t.app).get(`/v1/verdicts/${created.body.id}/export`).set(auth()).buffer(true).parse((res, cb) => {
+      let s = '';
+      res.on('data', (c: Buffer) => (s += c.toString('utf8')));
+      res.on('end', () => cb(null, s));
+    });
+    expect(exp.status).toBe(200);
+    const text = exp.body as string;
+    // the measurements in the record are the RFC 8785 text of what was sent
+    expect(text).toContain(`"measurements":${JSON.stringify(values)}`);
+    const dir = mkdtempSync(join(tmpdir(), 'lotproof-verify-big-'));
+    const jwks = await request(t.app).get('/.well-known/jwks.json');
+    writeFileSync(join(dir, 'jwks.json'), JSON.stringify(jwks.body));
+    writeFileSync(join(dir, 'doc.json'), text);
+    const verifier = join(process.cwd(), 'clients', 'verifier', 'verify.mjs');
+    const ok = execFileSync(process.execPath, [verifier, '--jwks', join(dir, 'jwks.json'), join(dir, 'doc.json')], { encoding: 'utf8' });
+    expect(ok).toMatch(/all 1 sealed verdict\(s\) verified/);
+    rmSync(dir, { recursive: true, force: true });
+
+    const re = await request(t.app).post(`/v1/verdicts/${created.body.id}/recompute`).set(auth());
+    expect(re.status).toBe(200);
+    expect(re.body.matches).toBe(true);
+    const chain = await request(t.app).get('/v1/ledger/verify').set(auth());
+    expect(chain.body.intact).toBe(true);
+  }, 120_000);
+});
+
 describe('CSV lots', () => {
   const q = (extra = '') => `/v1/lots?sku=${product.sku}&lotCode=L-CSV-1&lotSize=2000&testing=non-destructive&measurementUnit=g&measurementBasis=net&column=net_g${extra}`;
   const csv = (values: (number | string)[]) => 'pack,net_g\n' + values.map((v, i) => `${i + 1},${v}`).join('\n') + '\n';
