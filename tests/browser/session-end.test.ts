@@ -12,6 +12,9 @@ describe('a session that ends while the console is open', () => {
     await signIn(page, h.users.quality);
     await page.goto('/verdicts');
     await page.locator('[data-nav]').waitFor();
+    // Let the verdicts page finish its own requests first: one still in flight when the session
+    // ends would send the page to sign-in before the click below (and back to /verdicts after).
+    await page.waitForLoadState('networkidle');
     // 31 minutes without a request (the idle timeout is 30)
     const user = await User.findOne({ where: { email: h.users.quality } });
     await Session.update({ lastSeenAt: new Date(Date.now() - 31 * 60_000) }, { where: { userId: user!.id } });

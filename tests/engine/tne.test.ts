@@ -58,8 +58,16 @@ describe('tolerable negative error, Directive 76/211/EEC Annex I 2.4', () => {
     expect(tolerableNegativeError(Number.NaN, 'g').ok).toBe(false);
   });
 
-  it('extends above 10 kg only for OIML R 87 (rows from memory; verify — not an authoritative check)', () => {
+  // UK government guidance, "Weights and measures: the law — Packaged goods" (gov.uk), TNE table:
+  // "10,000 to 15,000 | n/a | 150" and "more than 15,000 | 1 | n/a", a percentage rounded up to
+  // 0.10 g; packaged goods up to 25 kg. (The R 87:2016 table itself could not be read here.)
+  it('extends above 10 kg only for OIML R 87, as the UK government table does', () => {
+    expect(tne(10000, 'g', 'oiml-r87-2016').baseValue).toBe(150);
     expect(tne(12000, 'g', 'oiml-r87-2016').baseValue).toBe(150);
+    expect(tne(15000, 'g', 'oiml-r87-2016').baseValue).toBe(150);
+    expect(tne(15001, 'g', 'oiml-r87-2016').baseValue).toBe(150.1); // 150.01 rounded up to 0.1 g
     expect(tne(20000, 'g', 'oiml-r87-2016').baseValue).toBe(200);
+    expect(tne(25000, 'g', 'oiml-r87-2016').baseValue).toBe(250);
+    expect(tne(12000, 'mL', 'oiml-r87-2016').baseValue).toBe(150);
   });
 });

@@ -60,6 +60,15 @@ function expectProblem(res: request.Response, status: number, pointer?: string |
   }
 }
 
+/** GET /v1/verdicts/{id}/export as text (the sealed document, byte for byte). */
+function exportOf(id: string) {
+  return request(t.app).get(`/v1/verdicts/${id}/export`).set(auth()).buffer(true).parse((res, cb) => {
+    let s = '';
+    res.on('data', (c: Buffer) => (s += c.toString('utf8')));
+    res.on('end', () => cb(null, s));
+  });
+}
+
 describe('the offline verifier', () => {
   it('accepts an exported verdict and rejects it after any one byte is changed', async () => {
     const { execFileSync, spawnSync } = await import('node:child_process');
@@ -68,11 +77,7 @@ describe('the offline verifier', () => {
     const { tmpdir } = await import('node:os');
     const created = await request(t.app).post('/v1/lots').set(auth()).send(lotBody(product.sku, 2));
     expect(created.status).toBe(201);
-    const exp = await request(t.app).get(`/v1/verdicts/${created.body.id}/export`).set(auth()).buffer(true).parse((res, cb) => {
-      let s = '';
-      res.on('data', (c: Buffer) => (s += c.toString('utf8')));
-      res.on('end', () => cb(null, s));
-    });
+    const exp = await exportOf(created.body.id);
     expect(exp.status).toBe(200);
     const text = exp.body as string;
     const jwks = await request(t.app).get('/.well-known/jwks.json');
@@ -124,11 +129,7 @@ describe('a big lot', () => {
     expect(created.status).toBe(201);
     expect(created.body.lot.measurementCount).toBe(values.length);
 
-    const exp = await request(t.app).get(`/v1/verdicts/${created.body.id}/export`).set(auth()).buffer(true).parse((res, cb) => {
-      let s = '';
-      res.on('data', (c: Buffer) => (s += c.toString('utf8')));
-      res.on('end', () => cb(null, s));
-    });
+    const exp = await exportOf(created.body.id);
     expect(exp.status).toBe(200);
     const text = exp.body as string;
     // the measurements in the record are the RFC 8785 text of what was sent

@@ -1,8 +1,11 @@
 /**
  * Rulebook `oiml-r87-2016`: OIML R 87 (2016), "Quantity of product in prepackages".
  *
- * FROM MEMORY; VERIFY: the lot-size bands, sample sizes and allowed T1 counts below, and the TNE
- * rows above 10 kg, were written from memory and have not been checked against the text of R 87.
+ * FROM MEMORY; VERIFY: the lot-size bands, sample sizes and allowed T1 counts below were written
+ * from memory and have not been checked against the text of R 87 (its 2016 edition could not be
+ * read here). The rows for lots of 100 and more agree with the UK single plan (SI 2006/659 Sch. 2
+ * para 3.3–3.5); no published text was found for the bands under 100. The TNE rows above 10 kg
+ * agree with the UK government's published TNE table (see tne.ts).
  * The λ factors are arithmetic on Student's t (t(0.995; n − 1)/√n) and are computed, not tabled.
  * The verdict's rulebook source says so.
  *
@@ -18,11 +21,12 @@ import { countBelowT1T2, meanCheckFactor, meanCriterion, sampleSizeCriterion, t1
 
 export const OIML_R87_INFO: RulebookInfo = {
   id: 'oiml-r87-2016',
-  version: '2016.1',
+  version: '2016.2',
   title: 'OIML R 87 (2016) quantity of product in prepackages',
-  source: 'OIML R 87 Quantity of product in prepackages, edition 2016 (sampling plan and TNE extension from memory; verify)',
+  source:
+    'OIML R 87 Quantity of product in prepackages, edition 2016 (sampling plan from memory; verify. TNE above 10 kg as in the UK government table: 10 000–15 000 g → 150 g, above 15 000 g → 1 %)',
   provenance:
-    'Lot-size bands, sample sizes, allowed T1 counts and the TNE rows above 10 kg are from memory and not yet verified against the text of R 87; the λ factors are computed from Student’s t.',
+    'Lot-size bands, sample sizes and allowed T1 counts are from memory and not verified against the text of R 87; those for lots of 100 and more agree with the UK single plan (SI 2006/659 Schedule 2 para 3.3–3.5), none was found for smaller lots. The TNE rows above 10 kg agree with the UK government’s published TNE table (gov.uk, “Weights and measures: the law — Packaged goods”); R 87’s own table was not available to check. The λ factors are computed from Student’s t.',
   parameters: [],
 };
 

@@ -7,7 +7,10 @@
  * a boundary does not change the value.
  *
  * OIML R 87 (2016) uses the same table and extends it above 10 kg: 10 000 to 15 000 → 150 g;
- * above 15 000 → 1 % of Qn — these two rows are from memory; verify against the text of R 87.
+ * above 15 000 → 1 % of Qn. These two rows were written from memory; the UK government's
+ * published table (gov.uk, "Weights and measures: the law — Packaged goods", rows "10,000 to
+ * 15,000 | 150" and "more than 15,000 | 1 %", percentages rounded up to 0.1 g) gives the same;
+ * the text of R 87 itself could not be read here.
  */
 import type { TneResult, Unit } from '../types';
 import { baseFactor, baseUnitOf, conversionFactor, isUnit } from '../units';
@@ -32,7 +35,7 @@ export const EU_TNE_TABLE: readonly TneRow[] = [
   { above: 1000, upTo: 10000, perMille: 15, fixed: null },
 ];
 
-/** OIML R 87 (2016) rows above 10 000 g or mL — from memory; verify. */
+/** OIML R 87 (2016) rows above 10 000 g or mL — as in the UK government's published TNE table (R 87's own text not read). */
 export const OIML_TNE_EXTENSION: readonly TneRow[] = [
   { above: 10000, upTo: 15000, perMille: null, fixed: 150 },
   { above: 15000, upTo: Number.POSITIVE_INFINITY, perMille: 10, fixed: null },
