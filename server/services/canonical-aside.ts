@@ -19,17 +19,14 @@ import type { AsideMessage, AsideRequest } from './canonical-aside.worker';
 /** Arrays shorter than this are written on the main thread: posting them costs more than it saves. */
 export const ASIDE_MIN_LENGTH = 50_000;
 
-interface Waiting {
-  resolve: (b: Buffer | null) => void;
-}
-
 let worker: Worker | null = null;
 let ready = false;
 let nextId = 1;
-const waiting = new Map<number, Waiting>();
+/** Jobs sent to the worker, by id: each is settled with its bytes, or with null. */
+const waiting = new Map<number, (b: Buffer | null) => void>();
 
 function settleAll(): void {
-  for (const w of waiting.values()) w.resolve(null);
+  for (const settle of waiting.values()) settle(null);
   waiting.clear();
 }
 
@@ -52,10 +49,10 @@ function startWorker(): Worker {
       if (worker === w) ready = true;
       return;
     }
-    const job = waiting.get(m.id);
-    if (!job) return;
+    const settle = waiting.get(m.id);
+    if (!settle) return;
     waiting.delete(m.id);
-    job.resolve(m.bytes ? Buffer.from(m.bytes.buffer, m.bytes.offset, m.bytes.length) : null);
+    settle(m.bytes ? Buffer.from(m.bytes.buffer, m.bytes.offset, m.bytes.length) : null);
   });
   const gone = () => {
     if (worker === w) {
@@ -89,11 +86,7 @@ export function writeNumberArraysAside(arrays: readonly (readonly unknown[] | un
   const big = arrays.filter((a): a is readonly unknown[] => Array.isArray(a) && a.length >= ASIDE_MIN_LENGTH);
   if (big.length === 0) return Promise.resolve(new Map());
   if (!worker || !ready) {
-    try {
-      worker ??= startWorker();
-    } catch {
-      // no worker thread: the main thread writes everything, as it did before
-    }
+    startAsideWorker(); // for the next lot; this one is written on the main thread
     return Promise.resolve(new Map());
   }
   const w = worker;
@@ -104,7 +97,7 @@ export function writeNumberArraysAside(arrays: readonly (readonly unknown[] | un
         if (!values) return resolve([array, null]);
         const id = nextId++;
         try {
-          waiting.set(id, { resolve: (b) => resolve([array, b]) });
+          waiting.set(id, (b) => resolve([array, b]));
           const request: AsideRequest = { id, values };
           w.postMessage(request, [values.buffer]);
         } catch {

@@ -18,8 +18,8 @@ export type AsideMessage = AsideReply | { ready: true };
 
 parentPort!.on('message', ({ id, values }: AsideRequest) => {
   const b = numberArrayJsonOrNull(values);
-  // A big result owns its ArrayBuffer (Buffer.allocUnsafe above the pool size), so it can move.
-  const own = b !== null && b.byteOffset === 0 && b.buffer.byteLength >= b.length && b.length > 4096;
+  // A result above the pool size owns its ArrayBuffer (Buffer.allocUnsafe), so it can move.
+  const own = b !== null && b.byteOffset === 0 && b.length > Buffer.poolSize >>> 1;
   const copy = b === null ? null : own ? b : Buffer.from(b);
   const reply: AsideReply = { id, bytes: copy ? { buffer: copy.buffer as ArrayBuffer, offset: copy.byteOffset, length: copy.length } : null };
   parentPort!.postMessage(reply, copy && own ? [copy.buffer as ArrayBuffer] : []);
