@@ -14,6 +14,7 @@ import { loadApiDocument, operationsOf } from '../openapi/load';
 import { authenticate, authorize } from './http/access';
 import { createMeter } from './http/metering';
 import { fixedHeaders } from './http/fixed-headers';
+import { inputGuards } from './http/input-guards';
 import { memoiseValidatorRouteRegexps } from './http/route-regexp-cache';
 import { IDLE_MINUTES_LOCAL, registerSessionResolver } from './http/session-auth';
 import type { AppContext } from './http/context';
@@ -126,6 +127,7 @@ export function createApp(ctx: AppContext): Express {
       ignoreUndocumented: false,
     }),
   );
+  app.use((req, res, next) => (API_PATH.test(req.path) ? inputGuards(req, res, next) : next()));
   for (const op of operations) {
     app[op.method](expressPath(op.path), handlers[op.operationId]!);
   }

@@ -6,7 +6,7 @@
 import { randomBytes, randomUUID } from 'node:crypto';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { loadApiDocument, operationsOf, type Operation } from '../../openapi/load';
+import type { Operation } from '../../openapi/load';
 import { ApiKey, type Organisation, type User } from '../../server/models';
 import type { RunningSmtpFake } from '../../server/platform/smtp-fake';
 import { issueInvitation } from '../../server/services/invitations';
@@ -14,10 +14,7 @@ import { ROLES, SCOPES, type Role, type Scope } from '../../server/services/prin
 import { startSession } from '../../server/services/sessions';
 import { buildTestApp, createTestKey, createTestOrganisation, testConfig, type TestApp } from '../support/app';
 import { createTestUser, startTestSmtp } from '../support/identity';
-
-type Doc = Record<string, any>;
-const doc: Doc = loadApiDocument();
-const operations: Operation[] = operationsOf(doc);
+import { apiOperations as operations, exampleBody, parametersOf, resolveRef as resolve, type Doc } from '../support/operations';
 const UNSAFE = new Set(['post', 'put', 'patch', 'delete']);
 
 let smtp: RunningSmtpFake;
@@ -34,18 +31,6 @@ let expiredKey: string;
 const fixtureIds: Record<string, string> = {};
 let cells = 0;
 
-function resolve(ref: unknown): Doc {
-  if (ref && typeof ref === 'object' && '$ref' in (ref as Doc)) {
-    return String((ref as Doc).$ref).replace(/^#\//, '').split('/').reduce((o: Doc, k) => o[k], doc);
-  }
-  return ref as Doc;
-}
-
-function parametersOf(op: Operation): Doc[] {
-  const item = doc.paths[op.path];
-  return [...(item.parameters ?? []), ...((op.definition.parameters as unknown[]) ?? [])].map(resolve);
-}
-
 /** A value for a path parameter: a real id of organisation A where we have one, else one its schema accepts. */
 function sampleFor(p: Doc): string {
   if (fixtureIds[p.name]) return fixtureIds[p.name]!;
@@ -60,14 +45,6 @@ function urlFor(op: Operation): string {
   let url = op.path;
   for (const p of parametersOf(op).filter((x) => x.in === 'path')) url = url.replace(`{${p.name}}`, encodeURIComponent(sampleFor(p)));
   return url;
-}
-
-function exampleBody(op: Operation): unknown {
-  const content = resolve((op.definition.requestBody as Doc | undefined) ?? {})?.content?.['application/json'];
-  if (!content) return undefined;
-  if (content.example !== undefined) return content.example;
-  const first = Object.values((content.examples ?? {}) as Record<string, Doc>)[0];
-  return first ? resolve(first).value : undefined;
 }
 
 type Credential = { kind: 'none' } | { kind: 'bearer'; value: string } | { kind: 'session'; user: User; csrf?: boolean };
