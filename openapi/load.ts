@@ -46,6 +46,35 @@ function validAccess(a: unknown): a is Access {
   return list(o.scopes) && list(o.roles) && Boolean((o.scopes as string[] | undefined)?.length || (o.roles as string[] | undefined)?.length);
 }
 
+/**
+ * The name under components/examples of an operation's captured example (openapi/parts/examples.yaml,
+ * written by `npm run gen:examples`): "<operationId>.request" for its JSON request body,
+ * "<operationId>.<status>" for a JSON answer, "<operationId>.<status>.<subtype>" for another type.
+ */
+export function exampleKey(operationId: string, status: string, contentType: string): string {
+  if (contentType === 'request') return `${operationId}.request`;
+  if (contentType === 'application/json') return `${operationId}.${status}`;
+  return `${operationId}.${status}.${contentType.split('/')[1]!.replace(/[^A-Za-z0-9._-]/g, '-')}`;
+}
+
+/** Gives each request body and answer without an example of its own its captured one, if there is one. */
+function attachCapturedExamples(root: Doc): void {
+  const captured = (root.components.examples ?? {}) as Doc;
+  const attach = (content: Doc | undefined, key: string, contentType: string) => {
+    const media = content?.[contentType];
+    if (!media || media.example !== undefined || media.examples || !(key in captured)) return;
+    media.examples = { captured: { $ref: `#/components/examples/${key.replace(/~/g, '~0').replace(/\//g, '~1')}` } };
+  };
+  for (const op of operationsOf(root)) {
+    const def = op.definition as Doc;
+    if (def.requestBody && !('$ref' in def.requestBody)) attach(def.requestBody.content, exampleKey(op.operationId, '', 'request'), 'application/json');
+    for (const [status, response] of Object.entries((def.responses ?? {}) as Doc)) {
+      if (!/^2/.test(status) || '$ref' in response) continue;
+      for (const contentType of Object.keys(response.content ?? {})) attach(response.content, exampleKey(op.operationId, status, contentType), contentType);
+    }
+  }
+}
+
 let cached: Doc | null = null;
 
 /** The merged document (a fresh deep copy each call, so callers may not disturb one another). */
@@ -69,6 +98,7 @@ export function loadApiDocument(dir = here): Doc {
     for (const op of operationsOf(root)) {
       (op.definition as Doc).security = securityFor(op.access);
     }
+    attachCapturedExamples(root);
     if (dir !== here) return root;
     cached = root;
   }
