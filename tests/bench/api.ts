@@ -1,7 +1,8 @@
 // `npm run bench:api`: throughput and latency of POST /v1/lots (50 measurements, 32 connections)
-// against a bare Express + pg insert route on the same throwaway database, the chain checked
-// afterwards; then lots of 1 000 000 measurements end to end (one warm-up, median of five) beside
-// JSON.parse of the same body. Prints numbers; it is not a timed test.
+// against a bare Express + pg insert route on the same throwaway database, beside the same stack
+// answering a request with no lot work (GET /v1/me), the chain checked afterwards; then lots of
+// 1 000 000 measurements end to end (one warm-up, median of five) beside JSON.parse of the same
+// body. Prints numbers; it is not a timed test.
 import { spawn, type ChildProcess } from 'node:child_process';
 import { mkdtempSync, readdirSync, readFileSync } from 'node:fs';
 import { cpus, loadavg, tmpdir } from 'node:os';
@@ -18,10 +19,10 @@ import { destroyCluster, freePort, startCluster, type RunningCluster } from '../
 
 const DURATION = Number(process.env.BENCH_SECONDS ?? 10);
 const CONNECTIONS = 32;
-// Knobs for investigating (all optional): BENCH_ONLY=bare,api,big runs a subset; BENCH_CPU_PROF=<dir>
+// Knobs for investigating (all optional): BENCH_ONLY=bare,floor,api,big runs a subset; BENCH_CPU_PROF=<dir>
 // writes a V8 CPU profile of the API process there; BENCH_WAITS=1 tallies PostgreSQL wait events
 // during the Lotproof run; BENCH_NODE_ARGS="--flag …" starts the API process with those Node flags.
-const ONLY = new Set((process.env.BENCH_ONLY ?? 'bare,api,big').split(','));
+const ONLY = new Set((process.env.BENCH_ONLY ?? 'bare,floor,api,big').split(','));
 const CPU_PROF = process.env.BENCH_CPU_PROF ?? '';
 const children: ChildProcess[] = [];
 let cluster: RunningCluster | null = null;
@@ -62,19 +63,21 @@ function cpuSeconds(serverPid: number | undefined): { server: number; postgres: 
   return { server: serverPid ? (ticks(String(serverPid))?.t ?? 0) : 0, postgres };
 }
 
-async function run(url: string, headers: Record<string, string>, body: string, title: string, serverPid?: number) {
+async function run(url: string, headers: Record<string, string>, body: string | null, title: string, serverPid?: number) {
+  const method = body === null ? 'GET' : 'POST';
+  const req = { url, method, headers, ...(body === null ? {} : { body }), connections: CONNECTIONS } as const;
   // warm-up, then the measured run
-  await autocannon({ url, method: 'POST', headers, body, connections: CONNECTIONS, duration: 2 });
+  await autocannon({ ...req, duration: 2 });
   const c0 = cpuSeconds(serverPid);
-  const r = await autocannon({ url, method: 'POST', headers, body, connections: CONNECTIONS, duration: DURATION });
+  const r = await autocannon({ ...req, duration: DURATION });
   const c1 = cpuSeconds(serverPid);
   const ok = r['2xx'];
   const rate = ok / DURATION;
   const per = (x: number) => ((1000 * x) / Math.max(1, ok)).toFixed(2);
-  console.log(`${title.padEnd(34)} ${rate.toFixed(0).padStart(6)} lots/s   p50 ${String(r.latency.p50).padStart(4)} ms   p99 ${String(r.latency.p99).padStart(4)} ms   non-2xx ${r.non2xx}  errors ${r.errors}`);
+  console.log(`${title.padEnd(34)} ${rate.toFixed(0).padStart(6)} ${body === null ? 'req/s ' : 'lots/s'}   p50 ${String(r.latency.p50).padStart(4)} ms   p99 ${String(r.latency.p99).padStart(4)} ms   non-2xx ${r.non2xx}  errors ${r.errors}`);
   // PostgreSQL's share is only indicative: backends that exit during the run take their CPU with them.
   const pg = c1.postgres - c0.postgres;
-  console.log(`${''.padEnd(34)} CPU per lot: server ${per(c1.server - c0.server)} ms${pg > 0 ? `, PostgreSQL ≥ ${per(pg)} ms` : ''}`);
+  console.log(`${''.padEnd(34)} CPU per ${body === null ? 'request' : 'lot'}: server ${per(c1.server - c0.server)} ms${pg > 0 ? `, PostgreSQL ≥ ${per(pg)} ms` : ''}`);
   return { rate, r };
 }
 
@@ -145,9 +148,17 @@ async function main() {
   console.log(`\nmachine: ${cpus().length} × ${cpus()[0]?.model.trim() ?? 'unknown CPU'}, Node ${process.version}, load average ${loadavg().map((x) => x.toFixed(2)).join(' ')}`);
   console.log(`\nPOST of one lot of 50 measurements, ${CONNECTIONS} connections, ${DURATION} s (after a 2 s warm-up):`);
   const bare = ONLY.has('bare') ? await run(`http://127.0.0.1:${barePort}/bare`, { 'content-type': 'application/json' }, body, 'bare Express + pg insert', bareChild.pid) : null;
+  // The ceiling this stack sets before any lot work: the same server and middleware (logging,
+  // security headers, bearer key, rate limits and usage, OpenAPI validation) answering GET /v1/me,
+  // which reads one row (the organisation), has no body and writes nothing. No route of this stack
+  // can beat it here, so it bounds what the sealed POST can reach as a share of the bare route.
+  const floor = ONLY.has('floor')
+    ? await run(`http://127.0.0.1:${apiPort}/v1/me`, { authorization: `Bearer ${secret}` }, null, 'same stack, no lot (GET /v1/me)', apiChild.pid)
+    : null;
   const waits = process.env.BENCH_WAITS ? sampleWaits(db) : null;
   const api = ONLY.has('api') ? await run(`http://127.0.0.1:${apiPort}/v1/lots`, { 'content-type': 'application/json', authorization: `Bearer ${secret}` }, body, 'Lotproof POST /v1/lots (sealed)', apiChild.pid) : null;
   if (waits) console.log(`PostgreSQL wait events during the run (samples): ${JSON.stringify(await waits.stop())}`);
+  if (bare && floor) console.log(`ratio same stack without a lot / bare: ${((100 * floor.rate) / bare.rate).toFixed(0)} %  (what any route of this stack can reach here)`);
   if (bare && api) console.log(`ratio Lotproof / bare: ${((100 * api.rate) / bare.rate).toFixed(0)} %  (target ≥ 60 %)`);
 
   const verify = await fetch(`http://127.0.0.1:${apiPort}/v1/ledger/verify`, { headers: { authorization: `Bearer ${secret}` } }).then((r) => r.json());
