@@ -14,7 +14,7 @@ import { loadApiDocument, operationsOf } from '../openapi/load';
 import { authenticate, authorize } from './http/access';
 import { createMeter } from './http/metering';
 import { fixedHeaders } from './http/fixed-headers';
-import { inputGuards } from './http/input-guards';
+import { inputGuards, storableFormats } from './http/input-guards';
 import { memoiseValidatorRouteRegexps } from './http/route-regexp-cache';
 import { IDLE_MINUTES_LOCAL, registerSessionResolver } from './http/session-auth';
 import type { AppContext } from './http/context';
@@ -123,6 +123,7 @@ export function createApp(ctx: AppContext): Express {
       validateResponses: ctx.config.validateResponses,
       validateSecurity: false,
       validateFormats: true,
+      formats: storableFormats,
       ignorePaths: (path: string) => !API_PATH.test(path),
       ignoreUndocumented: false,
     }),

@@ -3,7 +3,12 @@
 //   - a string holding U+0000 (PostgreSQL's text cannot store it) or a lone UTF-16 surrogate (not
 //     Unicode, so it has no UTF-8 form to store or to seal);
 //   - a number that is not finite: the validator coerces a query value such as "1e999" to Infinity
-//     and its integer, minimum and maximum checks let it through.
+//     and its integer, minimum and maximum checks let it through;
+//   - a JSON value nested deeper than MAX_DEPTH (no request of this API needs more than a few levels;
+//     a walk over thousands would exhaust the stack).
+// And two formats made stricter for the validator itself (`storableFormats`): an RFC 3339
+// date-time or date that JavaScript can read and PostgreSQL can store — years 0001 to 9999, a
+// calendar day that exists, no leap second (ajv-formats accepts year 0000 and second 60).
 // A JSON body is only walked when its raw text holds a \u escape that could be one of these, so a
 // lot of a million numbers costs one scan of its bytes.
 import type { RequestHandler } from 'express';
@@ -12,12 +17,32 @@ import { ValidationProblem } from './problem';
 /** A `\u0000` or a `\uD800`–`\uDFFF` escape, in any letter case. */
 const SUSPECT_ESCAPE = /\\u(0000|d[89a-f][0-9a-f]{2})/i;
 
+/** How deep a JSON text nests, counted over its brackets outside strings (no parse, no recursion). */
+function nestingDepth(text: Buffer): number {
+  let depth = 0;
+  let max = 0;
+  let inString = false;
+  for (let i = 0; i < text.length; i++) {
+    const c = text[i]!;
+    if (inString) {
+      if (c === 0x5c) i++; // backslash: skip the escaped character
+      else if (c === 0x22) inString = false;
+    } else if (c === 0x22) inString = true;
+    else if (c === 0x5b || c === 0x7b) max = Math.max(max, ++depth);
+    else if (c === 0x5d || c === 0x7d) depth--;
+  }
+  return max;
+}
+
 function escapePointer(key: string): string {
   return key.replace(/~/g, '~0').replace(/\//g, '~1');
 }
 
+export const MAX_DEPTH = 64;
+
 /** The first value under `value` that is refused, with its JSON pointer and what is wrong with it. */
-function firstRefused(value: unknown, pointer: string): { pointer: string; detail: string } | null {
+function firstRefused(value: unknown, pointer: string, depth = 0): { pointer: string; detail: string } | null {
+  if (depth > MAX_DEPTH) return { pointer, detail: `is nested deeper than ${MAX_DEPTH} levels` };
   if (typeof value === 'string') {
     if (value.includes('\u0000')) return { pointer, detail: 'must not contain the NUL character (U+0000)' };
     if (!(value as string & { isWellFormed(): boolean }).isWellFormed()) return { pointer, detail: 'must be well-formed Unicode (it holds a lone surrogate)' };
@@ -28,14 +53,14 @@ function firstRefused(value: unknown, pointer: string): { pointer: string; detai
     for (let i = 0; i < value.length; i++) {
       const v = value[i];
       if (typeof v === 'number' && Number.isFinite(v)) continue;
-      const bad = firstRefused(v, `${pointer}/${i}`);
+      const bad = firstRefused(v, `${pointer}/${i}`, depth + 1);
       if (bad) return bad;
     }
     return null;
   }
   if (value && typeof value === 'object') {
     for (const [k, v] of Object.entries(value)) {
-      const bad = firstRefused(k, `${pointer}/${escapePointer(k)}`) ?? firstRefused(v, `${pointer}/${escapePointer(k)}`);
+      const bad = firstRefused(k, `${pointer}/${escapePointer(k)}`) ?? firstRefused(v, `${pointer}/${escapePointer(k)}`, depth + 1);
       if (bad) return bad;
     }
   }
@@ -44,10 +69,41 @@ function firstRefused(value: unknown, pointer: string): { pointer: string; detai
 
 export const inputGuards: RequestHandler = (req, _res, next) => {
   const raw = req.rawBody;
-  // Numbers never hold "\u": most bodies are passed over after one native search of their bytes.
-  const suspect = raw === undefined || (raw.indexOf('\\u') >= 0 && SUSPECT_ESCAPE.test(raw.toString('latin1')));
+  // Numbers never hold "\u" and few brackets: most bodies are passed over after a scan of their bytes.
+  const suspect =
+    raw === undefined ||
+    (raw.indexOf('\\u') >= 0 && SUSPECT_ESCAPE.test(raw.toString('latin1'))) ||
+    (raw.length > 2 * MAX_DEPTH && nestingDepth(raw) > MAX_DEPTH);
   const body = typeof req.body === 'string' || !suspect ? null : req.body;
   const bad = firstRefused(req.query, '/query') ?? firstRefused(req.params, '/path') ?? (body != null ? firstRefused(body, '/body') : null);
   if (!bad) return next();
   next(new ValidationProblem(`${bad.pointer}: ${bad.detail}`, [bad]));
 };
+
+const DATE = /^(\d{4})-(\d{2})-(\d{2})$/;
+const DATE_TIME = /^(\d{4}-\d{2}-\d{2})[Tt](\d{2}):(\d{2}):(\d{2})(\.\d+)?([Zz]|[+-](\d{2}):(\d{2}))$/;
+
+function storableDate(s: string): boolean {
+  const m = DATE.exec(s);
+  if (!m) return false;
+  const [y, mo, d] = [Number(m[1]), Number(m[2]), Number(m[3])];
+  const day = new Date(Date.UTC(2000, mo - 1, d));
+  day.setUTCFullYear(y);
+  // the day exists (Date.UTC would roll 2026-02-30 over into March)
+  return y >= 1 && day.getUTCFullYear() === y && day.getUTCMonth() === mo - 1 && day.getUTCDate() === d;
+}
+
+function storableDateTime(s: string): boolean {
+  const m = DATE_TIME.exec(s);
+  if (!m || !storableDate(m[1]!)) return false;
+  if (Number(m[2]) > 23 || Number(m[3]) > 59 || Number(m[4]) > 59) return false;
+  if (m[7] !== undefined && (Number(m[7]) > 23 || Number(m[8]) > 59)) return false;
+  const year = new Date(s).getUTCFullYear();
+  return year >= 1 && year <= 9999;
+}
+
+/** For the OpenAPI validator's `formats` option: date and date-time as this API can store them. */
+export const storableFormats = [
+  { name: 'date', type: 'string' as const, validate: storableDate },
+  { name: 'date-time', type: 'string' as const, validate: storableDateTime },
+];

@@ -173,6 +173,8 @@ function badParameterValues(schema: Doc): string[] {
   if (s.type === 'integer' || s.type === 'number') out.push('abc', '1e999', '-5', '2.5', '99999999999999999999');
   if (s.format === 'uuid') out.push('not-a-uuid', '00000000-0000-0000-0000-00000000000g');
   if (s.format === 'date-time' || s.format === 'date') out.push('yesterday', '2026-13-45', '2026-02-30T25:61:00Z');
+  if (s.format === 'date-time') out.push('0000-01-01T00:00:00Z', '2016-12-31T23:59:60Z', '2026-02-30T00:00:00Z', '0001-01-01T00:00:00+14:00');
+  if (s.format === 'date') out.push('0000-12-31', '2026-02-30');
   if (s.enum) out.push('no-such-value');
   if (s.pattern) out.push('!!', 'ZZ');
   return out;
@@ -247,6 +249,34 @@ describe('values the validator lets through and the guards refuse', () => {
       expect(res.status, `${path}: ${res.text}`).toBe(400);
       expect(res.body.errors[0].pointer).toBe('/query/limit');
     }
+  });
+
+  it('an instant JavaScript cannot read or PostgreSQL cannot store is a 400 naming the field; a real one is taken', async () => {
+    const submit = apiOperations.find((o) => o.operationId === 'submitLot')!;
+    const lot = exampleFor(submit)!;
+    // ajv-formats takes year 0000 and second 60 (RFC 3339 allows a leap second); PostgreSQL has no
+    // year 0, and JavaScript's Date reads neither; a day that does not exist is not one either.
+    for (const packedAt of ['0000-01-01T00:00:00Z', '2016-12-31T23:59:60Z', '2026-02-30T06:00:00Z', '0001-01-01T00:00:00+14:00']) {
+      const res = await request(t.app).post('/v1/lots').set(auth()).send({ ...lot, packedAt });
+      expect(res.status, `${packedAt}: ${res.text}`).toBe(400);
+      expect(res.body.errors[0].pointer).toBe('/body/packedAt');
+    }
+    const leapDay = await request(t.app).post('/v1/lots').set(auth()).send({ ...lot, packedAt: '2024-02-29T23:59:59.123456+01:00' });
+    expect(leapDay.status, leapDay.text).toBe(201);
+    expect(leapDay.body.lot.packedAt).toBe('2024-02-29T22:59:59.123Z');
+    const from = await request(t.app).get(`/v1/verdicts?from=${encodeURIComponent('0000-01-01T00:00:00Z')}`).set(auth());
+    expect([from.status, from.body.errors?.[0]?.pointer]).toEqual([400, '/query/from']);
+    const day = await request(t.app).get('/v1/usage?from=0000-12-31&to=0001-01-02').set(auth());
+    expect([day.status, day.body.errors?.[0]?.pointer]).toEqual([400, '/query/from']);
+  });
+
+  it('JSON nested thousands deep is a 400, not an exhausted stack', async () => {
+    const record = `${'{"a":'.repeat(3000)}1${'}'.repeat(3000)}`;
+    const res = await request(t.app).post('/v1/seals/verify').set(auth()).set('Content-Type', 'application/json')
+      .send(`{"format":"lotproof.sealed-verdict/1","kid":"k","seal":"${'a'.repeat(64)}","signature":"s","record":${record}}`);
+    expect(res.status, res.text.slice(0, 300)).toBe(400);
+    expect(res.body.errors[0].pointer).toMatch(/^\/body\/record\/a\/a/);
+    expect(res.body.errors[0].detail).toMatch(/nested deeper than 64 levels/);
   });
 
   it('the sweeps above checked the name in many refusals (they cannot pass by checking none)', () => {
