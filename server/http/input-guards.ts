@@ -103,7 +103,7 @@ function storableDateTime(s: string): boolean {
 }
 
 /** For the OpenAPI validator's `formats` option: date and date-time as this API can store them. */
-export const storableFormats = [
-  { name: 'date', type: 'string' as const, validate: storableDate },
-  { name: 'date-time', type: 'string' as const, validate: storableDateTime },
-];
+export const storableFormats = {
+  date: { type: 'string' as const, validate: storableDate },
+  'date-time': { type: 'string' as const, validate: storableDateTime },
+};

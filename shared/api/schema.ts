@@ -925,7 +925,7 @@ export interface components {
              * @enum {string}
              */
             measurementBasis?: "gross" | "net";
-            /** @description One value per pack, in production order (at most 1 000 000) */
+            /** @description One value per pack, in production order (at most 1 000 000), each from 0 to 1e12 in measurementUnit */
             measurements: number[];
             /** @description Per-pack tares paired with measurements (tare mode per-pack) */
             tares?: number[];

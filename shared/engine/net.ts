@@ -31,11 +31,19 @@ function isObject(v: unknown): v is Record<string, unknown> {
   return typeof v === 'object' && v !== null && !Array.isArray(v);
 }
 
-/** First index of a value that is not a finite number ≥ 0, or −1. */
+/**
+ * The largest value a measurement or tare may have, in its unit: no prepackage comes within several
+ * orders of magnitude of it (50 kg is 5e7 mg), and below it the sums of squares of a million values
+ * stay far inside double precision's range. Above it the statistics would overflow (a variance of
+ * Infinity, a standard deviation shown as 0), so such a value is refused, not judged.
+ */
+export const MAX_VALUE = 1e12;
+
+/** First index of a value that is not a finite number from 0 to MAX_VALUE, or −1. */
 function firstBadIndex(values: readonly unknown[]): number {
   for (let i = 0; i < values.length; i++) {
     const v = values[i];
-    if (typeof v !== 'number' || !Number.isFinite(v) || v < 0) return i;
+    if (typeof v !== 'number' || !(v >= 0 && v <= MAX_VALUE)) return i;
   }
   return -1;
 }
@@ -45,8 +53,8 @@ function badValueError(values: readonly unknown[], index: number, pointer: strin
   const shown = typeof v === 'number' ? String(v) : JSON.stringify(v) ?? String(v);
   const finite = typeof v === 'number' && Number.isFinite(v);
   return engineError(
-    finite ? 'measurement-negative' : 'measurement-not-finite',
-    `${what} ${index} is ${shown}; every value must be a finite number ≥ 0`,
+    !finite ? 'measurement-not-finite' : (v as number) < 0 ? 'measurement-negative' : 'measurement-out-of-range',
+    `${what} ${index} is ${shown}; every value must be a finite number from 0 to ${MAX_VALUE.toExponential()}`,
     `${pointer}/${index}`,
   );
 }

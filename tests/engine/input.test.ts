@@ -13,6 +13,10 @@ describe('bad input is an error value naming what and where', () => {
     ['first non-finite measurement', lotInput({}, { measurements: [...ramp(20, 500, 1), Number.NaN, Infinity] }), 'measurement-not-finite', '/lot/measurements/20'],
     ['first negative measurement', lotInput({}, { measurements: [500, 501, -1, -2] }), 'measurement-negative', '/lot/measurements/2'],
     ['a string among measurements', lotInput({}, { measurements: [500, '501' as unknown as number] }), 'measurement-not-finite', '/lot/measurements/1'],
+    // 1e300 squared overflows IEEE 754 binary64 (largest finite ≈ 1.797e308): judged, its variance
+    // was Infinity and its standard deviation came out as 0. Refused above MAX_VALUE (1e12) instead.
+    ['a value whose square overflows', lotInput({}, { measurements: [1e300, 5e-324, ...ramp(48, 500, 0.1)] }), 'measurement-out-of-range', '/lot/measurements/0'],
+    ['a tare above the largest value', lotInput({ tareMode: 'per-pack' }, { measurements: [520, 521], tares: [20, 2e12] }), 'measurement-out-of-range', '/lot/tares/1'],
     ['unknown declared unit', lotInput({ unit: 'grams' as never }, { measurements: [500, 501] }), 'unknown-unit', '/product/unit'],
     ['unknown measurement unit', lotInput({}, { measurementUnit: 'stone' as never, measurements: [500, 501] }), 'unknown-unit', '/lot/measurementUnit'],
     ['lot smaller than sample', lotInput({}, { lotSize: 10, measurements: ramp(30, 500, 1) }), 'lot-smaller-than-sample', '/lot/lotSize'],

@@ -270,6 +270,22 @@ describe('values the validator lets through and the guards refuse', () => {
     expect([day.status, day.body.errors?.[0]?.pointer]).toEqual([400, '/query/from']);
   });
 
+  it('a measurement whose square overflows a double is refused, not judged with an overflowed spread', async () => {
+    const submit = apiOperations.find((o) => o.operationId === 'submitLot')!;
+    const lot = exampleFor(submit)!;
+    const values = [...(lot.measurements as number[])];
+    values[3] = 1e300;
+    const json = await request(t.app).post('/v1/lots').set(auth()).send({ ...lot, measurements: values });
+    expect([json.status, json.body.errors?.[0]?.pointer], json.text).toEqual([400, '/body/measurements/3']);
+    // CSV bypasses the JSON schema: the engine's own bound answers, naming the line
+    const csv = 'pack,net_g\n' + values.map((v, i) => `${i + 1},${v}`).join('\n') + '\n';
+    const q = `sku=${lot.sku}&lotCode=L-HUGE&lotSize=${lot.lotSize}&testing=${lot.testing}&measurementUnit=${lot.measurementUnit}&measurementBasis=net&column=net_g`;
+    const res = await request(t.app).post(`/v1/lots?${q}`).set(auth()).set('Content-Type', 'text/csv').send(csv);
+    expect(res.status, res.text).toBe(422);
+    expect(res.body.errors[0]).toMatchObject({ pointer: '/body', line: 5 });
+    expect(res.body.code).toBe('measurement-out-of-range');
+  });
+
   it('JSON nested thousands deep is a 400, not an exhausted stack', async () => {
     const record = `${'{"a":'.repeat(3000)}1${'}'.repeat(3000)}`;
     const res = await request(t.app).post('/v1/seals/verify').set(auth()).set('Content-Type', 'application/json')
