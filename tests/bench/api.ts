@@ -1,6 +1,6 @@
 // `npm run bench:api`: throughput and latency of POST /v1/lots (50 measurements, 32 connections)
 // against a bare Express + pg insert route on the same throwaway database, beside the same stack
-// answering a request with no lot work (GET /v1/me), the chain checked afterwards; then lots of
+// answering a request with no lot work (GET /v1/rulebooks), the chain checked afterwards; then lots of
 // 1 000 000 measurements end to end (one warm-up, median of five) beside JSON.parse of the same
 // body. Prints numbers; it is not a timed test.
 import { spawn, type ChildProcess } from 'node:child_process';
@@ -149,11 +149,11 @@ async function main() {
   console.log(`\nPOST of one lot of 50 measurements, ${CONNECTIONS} connections, ${DURATION} s (after a 2 s warm-up):`);
   const bare = ONLY.has('bare') ? await run(`http://127.0.0.1:${barePort}/bare`, { 'content-type': 'application/json' }, body, 'bare Express + pg insert', bareChild.pid) : null;
   // The ceiling this stack sets before any lot work: the same server and middleware (logging,
-  // security headers, bearer key, rate limits and usage, OpenAPI validation) answering GET /v1/me,
-  // which reads one row (the organisation), has no body and writes nothing. No route of this stack
-  // can beat it here, so it bounds what the sealed POST can reach as a share of the bare route.
+  // security headers, bearer key, rate limits and usage, OpenAPI validation) answering
+  // GET /v1/rulebooks, which has no body, reads nothing beyond the key and writes nothing. No route
+  // of this stack does less, so it bounds what the sealed POST can reach as a share of the bare route.
   const floor = ONLY.has('floor')
-    ? await run(`http://127.0.0.1:${apiPort}/v1/me`, { authorization: `Bearer ${secret}` }, null, 'same stack, no lot (GET /v1/me)', apiChild.pid)
+    ? await run(`http://127.0.0.1:${apiPort}/v1/rulebooks`, { authorization: `Bearer ${secret}` }, null, 'same stack, no lot (GET /v1/rulebooks)', apiChild.pid)
     : null;
   const waits = process.env.BENCH_WAITS ? sampleWaits(db) : null;
   const api = ONLY.has('api') ? await run(`http://127.0.0.1:${apiPort}/v1/lots`, { 'content-type': 'application/json', authorization: `Bearer ${secret}` }, body, 'Lotproof POST /v1/lots (sealed)', apiChild.pid) : null;
