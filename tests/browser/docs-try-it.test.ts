@@ -37,6 +37,11 @@ describe('the interactive docs', () => {
 
     const op = page.locator('#operations-lots-submitLot');
     await op.locator('.opblock-summary').click();
+    // Before anything is sent, the documented answer is the one captured from the real API
+    // (openapi/parts/examples.yaml), not a schema placeholder.
+    const documented = op.locator('.responses-wrapper tr.response[data-code="201"] .highlight-code').first();
+    await documented.waitFor();
+    expect(await documented.textContent()).toMatch(/"lotCode": "L2-20261203-07"[\s\S]*"seal"/);
     // The docs open with "Try it out" already switched on (swaggerOptions.tryItOutEnabled).
     await op.getByRole('button', { name: 'Execute' }).click();
     const status = op.locator('.live-responses-table tr.response .response-col_status').first();
