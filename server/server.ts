@@ -6,6 +6,7 @@ import type { Config } from './config';
 import { openDatabase, type Database } from './db/database';
 import { migrate } from './db/migrate';
 import type { AppContext } from './http/context';
+import { answerClientErrorsAsProblems } from './http/client-errors';
 import { startJobs, type RunningJobs } from './jobs';
 import { currentSigningKey, publishSigningKey } from './services/signing-keys';
 import { secretBox } from './services/secret-box';
@@ -40,6 +41,7 @@ export async function startServer(config: Config & { databaseUrl: string }, logg
     s.once('error', reject);
   });
   server.keepAliveTimeout = 5_000;
+  answerClientErrorsAsProblems(server);
   const addr = server.address();
   const port = typeof addr === 'object' && addr ? addr.port : config.port;
   let stopping: Promise<void> | null = null;

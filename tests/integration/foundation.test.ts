@@ -39,6 +39,47 @@ describe('health', () => {
   });
 });
 
+/** Sends raw bytes to a server of the app (with the process's clientError handler) and returns the raw answer. */
+async function rawExchange(bytes: string): Promise<{ status: number; headers: string; body: string }> {
+  const { createServer } = await import('node:http');
+  const net = await import('node:net');
+  const { answerClientErrorsAsProblems } = await import('../../server/http/client-errors');
+  const server = createServer(t.app);
+  answerClientErrorsAsProblems(server);
+  await new Promise<void>((r) => server.listen(0, '127.0.0.1', () => r()));
+  const port = (server.address() as import('node:net').AddressInfo).port;
+  try {
+    const text = await new Promise<string>((resolve, reject) => {
+      const s = net.connect(port, '127.0.0.1', () => s.write(bytes));
+      let out = '';
+      s.on('data', (d) => (out += String(d)));
+      s.on('close', () => resolve(out));
+      s.on('error', reject);
+    });
+    const [head = '', body = ''] = text.split('\r\n\r\n');
+    return { status: Number(/^HTTP\/1\.1 (\d{3})/.exec(head)?.[1]), headers: head, body };
+  } finally {
+    server.closeAllConnections();
+    await new Promise<void>((r) => server.close(() => r()));
+  }
+}
+
+describe('requests the HTTP parser refuses are problem details too', () => {
+  it.each([
+    ['a request line that is not HTTP', 'GARBAGE\r\n\r\n', 400, 'malformed-request'],
+    ['headers over 16 KiB', `GET /healthz HTTP/1.1\r\nHost: x\r\nX-Big: ${'a'.repeat(20_000)}\r\n\r\n`, 431, 'headers-too-large'],
+    ['a Content-Length that is not a number', 'POST /v1/lots HTTP/1.1\r\nHost: x\r\nContent-Length: abc\r\n\r\n', 400, 'malformed-request'],
+    ['a chunk size that is not hexadecimal', 'POST /v1/lots HTTP/1.1\r\nHost: x\r\nTransfer-Encoding: chunked\r\n\r\nZZ\r\n', 400, 'malformed-request'],
+  ])('%s', async (_label, bytes, status, type) => {
+    const res = await rawExchange(bytes);
+    expect(res.status).toBe(status);
+    expect(res.headers).toMatch(/\r\nContent-Type: application\/problem\+json\r\n/i);
+    const body = JSON.parse(res.body);
+    expect(body).toMatchObject({ type: `https://lotproof.dev/problems/${type}`, status });
+    expect(body.detail.length).toBeGreaterThan(10);
+  });
+});
+
 describe('client errors are problem details, never 5xx', () => {
   it('unknown route under /v1 is a 404 problem', async () => {
     const res = await request(t.app).get('/v1/no-such-thing');
