@@ -63,6 +63,14 @@ export function createApp(ctx: AppContext): Express {
       autoLogging: { ignore: (req) => req.url === '/healthz' },
     }),
   );
+  // HEAD is GET without the body (RFC 9110 §9.3.2), and a general-purpose server must answer it:
+  // load balancers probe /healthz and /readyz with either. Node's response already knows it sends
+  // no body for HEAD, so the request goes on as a GET through validation and routing (the request
+  // log above has already noted it as HEAD).
+  app.use((req, _res, next) => {
+    if (req.method === 'HEAD' && API_PATH.test(req.path)) req.method = 'GET';
+    next();
+  });
   app.use(
     fixedHeaders(helmet({
       contentSecurityPolicy: {

@@ -31,6 +31,17 @@ describe('health', () => {
     expect(ready.status).toBe(200);
   });
 
+  it('answers HEAD like GET without a body (RFC 9110 §9.3.2), as load balancers probe', async () => {
+    for (const path of ['/healthz', '/readyz']) {
+      const res = await request(t.app).head(path);
+      expect(res.status, path).toBe(200);
+      expect(res.headers['content-type'], path).toMatch(/^application\/json/);
+      expect(res.text ?? '', path).toBe('');
+    }
+    expect((await request(t.app).head('/v1/verdicts').set('Authorization', `Bearer ${key}`)).status).toBe(200);
+    expect((await request(t.app).head('/v1/verdicts')).status).toBe(401);
+  });
+
   it('returns a request id, echoing a well-formed incoming one', async () => {
     const res = await request(t.app).get('/healthz').set('X-Request-Id', 'plant-7.req-42');
     expect(res.headers['x-request-id']).toBe('plant-7.req-42');
