@@ -100,10 +100,11 @@ interface ProductRow {
   rulebook: { id: string; params?: Record<string, unknown> };
   alert_recipients: string[];
   organisation_name: string;
+  archived: boolean;
 }
 
 const PRODUCT_SELECT = `SELECT p.id, p.sku, p.name, p.nominal_quantity, p.unit, p.tare_mode, p.fixed_tare, p.tare_unit, p.density, p.rulebook,
-            p.alert_recipients, o.name AS organisation_name
+            p.alert_recipients, o.name AS organisation_name, p.archived_at IS NOT NULL AS archived
      FROM products p JOIN organisations o ON o.id = p.organisation_id
      WHERE p.organisation_id = $1`;
 const PRODUCT_BY_ID = `${PRODUCT_SELECT} AND p.id = $2`;
@@ -188,12 +189,16 @@ export async function submitLot(
     throw new ValidationProblem('name the product with productId or sku', [{ pointer: fieldPointer('sku'), detail: 'productId or sku is required' }]);
   }
   const products = await productReader(sequelize)(`${productId ? 'id' : 'sku'}\n${org}\n${productId ?? sub.sku}`);
-  const product = products[0];
+  // An archived product takes no new lot (reads answer 404 for it too); a second sample still
+  // completes the check its first sample started.
+  const product = products[0] && (first || !products[0].archived) ? products[0] : undefined;
   if (!product || (sub.sku && product.sku !== sub.sku) || (first && product.id !== first.row.product_id)) {
     const which = productId && !first ? 'productId' : 'sku';
     const detail = first && product && product.id !== first.row.product_id
       ? `the first sample was of another product`
-      : `no product ${JSON.stringify(productId && !first ? productId : sub.sku)} in your organisation`;
+      : products[0]?.archived && !first
+        ? `product ${JSON.stringify(products[0].id)} is archived; an archived product takes no new lots`
+        : `no product ${JSON.stringify(productId && !first ? productId : sub.sku)} in your organisation`;
     throw invalid(detail, [{ pointer: fieldPointer(which), detail }]);
   }
 

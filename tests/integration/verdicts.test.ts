@@ -216,6 +216,18 @@ describe('bad lots are 4xx problems naming the field; nothing is stored', () => 
     expect(await verdictCount()).toBe(before);
   });
 
+  it('an archived product takes no new lot, by id or by SKU (reads answer 404 for it too)', async () => {
+    const gone = await createProduct(t.app, key, { sku: 'ARCHIVED-OATS' });
+    expect((await request(t.app).delete(`/v1/products/${gone.id}`).set(auth())).status).toBe(204);
+    const before = await verdictCount();
+    const { sku: _sku, ...byId } = lotBody(gone.sku, 22);
+    const res = await request(t.app).post('/v1/lots').set(auth()).send({ ...byId, productId: gone.id });
+    expectProblem(res, 422, '/body/productId');
+    expect(res.body.detail).toMatch(/archived/);
+    expectProblem(await request(t.app).post('/v1/lots').set(auth()).send(lotBody(gone.sku, 22)), 422, '/body/sku');
+    expect(await verdictCount()).toBe(before);
+  });
+
   it('answers 413 above 1 000 000 measurements', async () => {
     const res = await request(t.app)
       .post('/v1/lots')
