@@ -17,6 +17,15 @@ import { ValidationProblem } from './problem';
 /** A `\u0000` or a `\uD800`–`\uDFFF` escape, in any letter case. */
 const SUSPECT_ESCAPE = /\\u(0000|d[89a-f][0-9a-f]{2})/i;
 
+/** True when the text holds at most `limit` opening brackets (found by native search: a lot's body has two). */
+function fewBrackets(text: Buffer, limit: number): boolean {
+  let n = 0;
+  for (const bracket of [0x5b, 0x7b]) {
+    for (let i = text.indexOf(bracket); i >= 0; i = text.indexOf(bracket, i + 1)) if (++n > limit) return false;
+  }
+  return true;
+}
+
 /** How deep a JSON text nests, counted over its brackets outside strings (no parse, no recursion). */
 function nestingDepth(text: Buffer): number {
   let depth = 0;
@@ -69,11 +78,12 @@ function firstRefused(value: unknown, pointer: string, depth = 0): { pointer: st
 
 export const inputGuards: RequestHandler = (req, _res, next) => {
   const raw = req.rawBody;
-  // Numbers never hold "\u" and few brackets: most bodies are passed over after a scan of their bytes.
+  // Numbers hold no "\u" and no brackets: most bodies, a big lot's too, are passed over after a few
+  // native searches of their bytes.
   const suspect =
     raw === undefined ||
     (raw.indexOf('\\u') >= 0 && SUSPECT_ESCAPE.test(raw.toString('latin1'))) ||
-    (raw.length > 2 * MAX_DEPTH && nestingDepth(raw) > MAX_DEPTH);
+    (!fewBrackets(raw, MAX_DEPTH) && nestingDepth(raw) > MAX_DEPTH);
   const body = typeof req.body === 'string' || !suspect ? null : req.body;
   const bad = firstRefused(req.query, '/query') ?? firstRefused(req.params, '/path') ?? (body != null ? firstRefused(body, '/body') : null);
   if (!bad) return next();
