@@ -7,10 +7,14 @@ export type Doc = Record<string, any>;
 export const apiDocument: Doc = loadApiDocument();
 export const apiOperations: Operation[] = operationsOf(apiDocument);
 
-/** Follows a local $ref ("#/components/…"); anything else is returned as it is. */
+/** Follows a local $ref ("#/components/…", RFC 6901 escapes undone); anything else is returned as it is. */
 export function resolveRef(ref: unknown): Doc {
   if (ref && typeof ref === 'object' && '$ref' in (ref as Doc)) {
-    return String((ref as Doc).$ref).replace(/^#\//, '').split('/').reduce((o: Doc, k) => o[k], apiDocument);
+    return String((ref as Doc).$ref)
+      .replace(/^#\//, '')
+      .split('/')
+      .map((k) => k.replace(/~1/g, '/').replace(/~0/g, '~'))
+      .reduce((o: Doc, k) => o[k], apiDocument);
   }
   return ref as Doc;
 }

@@ -6,6 +6,7 @@ import addFormats from 'ajv-formats';
 import { describe, expect, it } from 'vitest';
 import { loadApiDocument, operationsOf } from '../../openapi/load';
 import { renderApiTypes } from '../../openapi/render-types';
+import { apiDocument, resolveRef } from '../support/operations';
 
 describe('OpenAPI document', () => {
   it('declares an operationId and an access rule on every operation', () => {
@@ -27,8 +28,8 @@ describe('OpenAPI document', () => {
 });
 
 describe('examples', () => {
-  const doc = loadApiDocument();
-  const resolve = (x: any): any => (x && typeof x === 'object' && '$ref' in x ? String(x.$ref).slice(2).split('/').map((k) => k.replace(/~1/g, '/').replace(/~0/g, '~')).reduce((o: any, k) => o[k], doc) : x);
+  const doc = apiDocument;
+  const resolve = resolveRef;
   /** Every example of a media object: [name, value]. */
   const examplesOf = (media: any): [string, unknown][] => [
     ...(media.example !== undefined ? [['example', media.example] as [string, unknown]] : []),
