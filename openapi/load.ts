@@ -63,7 +63,8 @@ function attachCapturedExamples(root: Doc): void {
   const attach = (content: Doc | undefined, key: string, contentType: string) => {
     const media = content?.[contentType];
     if (!media || media.example !== undefined || media.examples || !(key in captured)) return;
-    media.examples = { captured: { $ref: `#/components/examples/${key.replace(/~/g, '~0').replace(/\//g, '~1')}` } };
+    // exampleKey's names hold no "/" or "~", so they go into the pointer as they are
+    media.examples = { captured: { $ref: `#/components/examples/${key}` } };
   };
   for (const op of operationsOf(root)) {
     const def = op.definition as Doc;

@@ -85,7 +85,9 @@ export const inputGuards: RequestHandler = (req, _res, next) => {
     (raw.indexOf('\\u') >= 0 && SUSPECT_ESCAPE.test(raw.toString('latin1'))) ||
     (!fewBrackets(raw, MAX_DEPTH) && nestingDepth(raw) > MAX_DEPTH);
   const body = typeof req.body === 'string' || !suspect ? null : req.body;
-  const bad = firstRefused(req.query, '/query') ?? firstRefused(req.params, '/path') ?? (body != null ? firstRefused(body, '/body') : null);
+  // (path parameters are checked by the validator's formats and patterns; at this point, before
+  // routing, req.params is still empty)
+  const bad = firstRefused(req.query, '/query') ?? (body != null ? firstRefused(body, '/body') : null);
   if (!bad) return next();
   next(new ValidationProblem(`${bad.pointer}: ${bad.detail}`, [bad]));
 };

@@ -191,13 +191,14 @@ export async function submitLot(
   const products = await productReader(sequelize)(`${productId ? 'id' : 'sku'}\n${org}\n${productId ?? sub.sku}`);
   // An archived product takes no new lot (reads answer 404 for it too); a second sample still
   // completes the check its first sample started.
-  const product = products[0] && (first || !products[0].archived) ? products[0] : undefined;
+  const archived = !first && products[0]?.archived === true;
+  const product = archived ? undefined : products[0];
   if (!product || (sub.sku && product.sku !== sub.sku) || (first && product.id !== first.row.product_id)) {
     const which = productId && !first ? 'productId' : 'sku';
     const detail = first && product && product.id !== first.row.product_id
       ? `the first sample was of another product`
-      : products[0]?.archived && !first
-        ? `product ${JSON.stringify(products[0].id)} is archived; an archived product takes no new lots`
+      : archived
+        ? `product ${JSON.stringify(products[0]!.id)} is archived; an archived product takes no new lots`
         : `no product ${JSON.stringify(productId && !first ? productId : sub.sku)} in your organisation`;
     throw invalid(detail, [{ pointer: fieldPointer(which), detail }]);
   }
