@@ -3,29 +3,19 @@
  * same input always gives the same verdict (no clocks, no randomness), so a stored verdict can be
  * recomputed from its input and the engine version.
  */
-import type { Criterion, Decision, EngineResult, LotInput, MeanTestResult, Verdict } from './types';
+import type { Criterion, Decision, EngineResult, LotInput, Verdict } from './types';
 import { ENGINE_VERSION } from './version';
 import { engineError } from './errors';
 import { toNet, validateInput } from './net';
 import { rulebookFor } from './rulebooks/registry';
+import { meanTestCriterion } from './rulebooks/criteria';
 import { describeSeries } from './stats/describe';
 import { tTestFromSummary, zTestFromSummary } from './inference/meanTest';
 import { assumptionChecks } from './assumptions/checks';
-import { formatNumber, formatPValue } from './format';
+import { baseUnitOf } from './units';
 
-export const CAUTION =
+const CAUTION =
   'This verdict is a statistical aid to a release decision, not a legal certificate: the packer’s responsible person decides release, and local weights-and-measures law and the competent authority prevail where they differ from this rulebook.';
-
-function customMeanCriterion(t: MeanTestResult): Criterion {
-  const passed = t.conclusion === 'fail to reject H0';
-  return {
-    id: 'mean',
-    observed: t.pValue,
-    limit: t.alpha,
-    passed,
-    sentence: `${t.method} test p = ${formatPValue(t.pValue)} ${passed ? '>' : '≤'} α = ${formatNumber(t.alpha)}: ${t.conclusion} (${t.alternative} alternative, μ₀ = ${formatNumber(t.hypothesisedMean)})`,
-  };
-}
 
 function decide(criteria: Criterion[], insufficient: boolean, additional: number | null): Decision {
   if (insufficient) return 'insufficient-data';
@@ -64,6 +54,7 @@ export function evaluateLot(input: LotInput): EngineResult {
     qn,
     mean: descriptive.mean,
     standardDeviation: sd,
+    tareSampleStandardDeviation: converted.data.tareSampleStandardDeviation,
   });
   if ('error' in judged) return { ok: false, error: judged.error };
 
@@ -78,21 +69,9 @@ export function evaluateLot(input: LotInput): EngineResult {
   }
 
   const criteria = judged.criteria.slice();
-  if (rulebook.info.id === 'custom' && !judged.insufficient) criteria.splice(1, 0, customMeanCriterion(test.value));
+  if (judged.meanTestCriterionAt !== undefined) criteria.splice(judged.meanTestCriterionAt, 0, meanTestCriterion(test.value));
 
-  const warnings = judged.warnings.slice();
   const tne = judged.tne;
-  const tareSd = converted.data.tareSampleStandardDeviation;
-  // Tare-sample spread against TNE: above 0.25 × TNE an average tare is not used but every pack's tare
-  // is weighed — the limit of Brazil's INMETRO Portaria nº 248 of 17 July 2008 (for packaging over 5 %
-  // of Qn; read as quoted by a secondary page, not from the Portaria's own text); other authorities
-  // may set their own.
-  if (tne !== null && tareSd !== null && tareSd > 0.25 * tne.value) {
-    warnings.push(
-      `the tare sample's standard deviation ${formatNumber(tareSd)} ${unit} exceeds 0.25 × TNE (${formatNumber(0.25 * tne.value)} ${unit}); weigh the tare of every pack instead (the limit of INMETRO Portaria nº 248/2008 for an average tare)`,
-    );
-  }
-
   const t1Limit = tne === null ? null : qn - tne.value;
   const t2Limit = tne === null ? null : qn - 2 * tne.value;
   const decision = decide(criteria, judged.insufficient, judged.additionalPacks);
@@ -110,7 +89,7 @@ export function evaluateLot(input: LotInput): EngineResult {
       nominalQuantity: qn,
       tolerableNegativeError: tne === null ? null : tne.value,
       tolerableNegativeErrorBase: tne === null ? null : tne.baseValue,
-      baseUnit: unit === 'mL' || unit === 'cL' || unit === 'L' || unit === 'fl oz' ? 'mL' : 'g',
+      baseUnit: baseUnitOf(unit),
       t1Limit,
       t2Limit,
       count: net.length,
@@ -119,7 +98,7 @@ export function evaluateLot(input: LotInput): EngineResult {
       belowT1Indices: judged.belowT1Indices ?? [],
       belowT2Indices: judged.belowT2Indices ?? [],
     },
-    warnings,
+    warnings: judged.warnings.slice(),
     engineVersion: ENGINE_VERSION,
     rulebook: {
       id: rulebook.info.id,

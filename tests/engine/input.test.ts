@@ -57,6 +57,15 @@ describe('gross to net, units and density (units exact per NIST SP 811)', () => 
     expect(at([16.3, 20, 23.7])).toEqual([]); // s = 3.7 g
     expect(at([16.2, 20, 23.8]).join(' ')).toMatch(/exceeds 0\.25 × TNE \(3\.75 g\).*INMETRO Portaria nº 248\/2008/); // s = 3.8 g
   });
+  it('gives the tare-sample warning in every rulebook with a TNE, and none in the custom rulebook, which has no TNE', () => {
+    // The same tare sample as above (s = 3.8 g); Qn 500 g is inside the Directive's table, which R 87 shares up to 10 kg (see tne.ts).
+    const warningsOf = (rulebook: LotInput['product']['rulebook']) =>
+      verdictOf(lotInput({ tareMode: 'sample', rulebook }, { measurements: ramp(50, 522, 2), tareSample: [16.2, 20, 23.8] })).warnings;
+    const eu = warningsOf({ id: 'eu-76-211' });
+    expect(eu.join(' ')).toMatch(/exceeds 0\.25 × TNE/);
+    expect(warningsOf({ id: 'oiml-r87-2016' })).toEqual(eu);
+    expect(warningsOf({ id: 'custom' })).toEqual([]);
+  });
   it('converts mass to a declared volume through the density at 20 °C (net volume = net mass / density)', () => {
     const v = verdictOf(lotInput({ unit: 'mL', density: 1.03 }, { measurementUnit: 'g', measurements: ramp(30, 515, 1) }));
     expect(v.statistics.descriptive.mean).toBeCloseTo(500, 10);

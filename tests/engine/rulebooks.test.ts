@@ -228,6 +228,12 @@ describe('custom rulebook', () => {
     expect(verdictOf(lotInput({ rulebook: rb(1) }, { measurements: xs })).decision).toBe('conforming');
     expect(verdictOf(lotInput({ rulebook: rb(0) }, { measurements: xs })).decision).toBe('nonconforming');
   });
+  it('lists its criteria as sample size, the mean test, then the lower and upper limits', () => {
+    const params = { lowerLimit: { value: 491, allowed: 1 }, upperLimit: { value: 509, allowed: 1 } };
+    const v = verdictOf(lotInput({ rulebook: { id: 'custom', params } }, { measurements: shuffled(ramp(12, 503, 2)) }));
+    expect(v.criteria.map((c) => c.id)).toEqual(['sample-size', 'mean', 'lower-limit', 'upper-limit']);
+    expect(v.criteria[1]).toMatchObject({ observed: v.statistics.meanTest.pValue, limit: v.statistics.meanTest.alpha });
+  });
   it('uses a z test when the process standard deviation is known', () => {
     const v = verdictOf(lotInput({ rulebook: { id: 'custom', params: { knownStandardDeviation: 2 } } }, { measurements: ramp(10, 501, 1) }));
     expect(v.statistics.meanTest.method).toBe('one-sample z');

@@ -1,6 +1,6 @@
 /** Criterion builders shared by the rulebooks, with the sentences a quality engineer reads. */
-import type { Criterion, Unit } from '../types';
-import { formatNumber, formatQuantity } from '../format';
+import type { Criterion, MeanTestResult, Unit } from '../types';
+import { formatNumber, formatPValue, formatQuantity } from '../format';
 import { studentTQuantile } from '../distributions/studentT';
 
 /**
@@ -87,6 +87,38 @@ export function meanCriterion(mean: number, sd: number, n: number, qn: number, f
       `mean ${q(mean)} is ${passed ? 'at or above' : 'below'} the lower limit ${q(limit)} = ` +
       `${q(qn)} \u2212 ${formatNumber(factor, 3)} × ${q(sd)} (n = ${n})`,
   };
+}
+
+/**
+ * The mean criterion of a rulebook whose mean check is the mean test itself (the custom rulebook):
+ * the lot fails it when the test rejects H0, i.e. when p ≤ α. A rulebook asks for it with
+ * `meanTestCriterionAt` in its judgement, and the evaluator builds it once the test has run.
+ */
+export function meanTestCriterion(t: MeanTestResult): Criterion {
+  const passed = t.conclusion === 'fail to reject H0';
+  return {
+    id: 'mean',
+    observed: t.pValue,
+    limit: t.alpha,
+    passed,
+    sentence: `${t.method} test p = ${formatPValue(t.pValue)} ${passed ? '>' : '≤'} α = ${formatNumber(t.alpha)}: ${t.conclusion} (${t.alternative} alternative, μ₀ = ${formatNumber(t.hypothesisedMean)})`,
+  };
+}
+
+/**
+ * The warning on a tare sample whose spread is large against the TNE, or none; `tareSd` is the tare
+ * sample's standard deviation and `tne` the TNE, both in the declared unit (`tareSd` null without a
+ * tare sample of two or more). Given by every rulebook with a TNE (the custom rulebook has none).
+ */
+export function tareSpreadWarnings(tareSd: number | null, tne: number, unit: Unit): string[] {
+  // Tare-sample spread against TNE: above 0.25 × TNE an average tare is not used but every pack's tare
+  // is weighed — the limit of Brazil's INMETRO Portaria nº 248 of 17 July 2008 (for packaging over 5 %
+  // of Qn; read as quoted by a secondary page, not from the Portaria's own text); other authorities
+  // may set their own.
+  if (tareSd === null || !(tareSd > 0.25 * tne)) return [];
+  return [
+    `the tare sample's standard deviation ${formatNumber(tareSd)} ${unit} exceeds 0.25 × TNE (${formatNumber(0.25 * tne)} ${unit}); weigh the tare of every pack instead (the limit of INMETRO Portaria nº 248/2008 for an average tare)`,
+  ];
 }
 
 function packs(k: number): string {

@@ -4,6 +4,7 @@
  * count). The mean criterion is a one-sample t test (or z test when the process standard
  * deviation is known) at the chosen α and alternative: the lot fails it when the test rejects H0.
  * Defaults: α = 0.05 and a 'less' alternative (common practice for a plant's own checks).
+ * The rulebook has no TNE, so it gives no tare-sample warning (that limit is a fraction of the TNE).
  */
 import type { Criterion, CustomRulebookParams, EngineError, LotInput, RulebookInfo } from '../types';
 import type { Judgement, JudgeContext, Rulebook } from './types';
@@ -107,10 +108,11 @@ function judge(ctx: JudgeContext): Judgement {
   const base = { meanTest, tne: null, warnings: [] as string[], additionalPacks: null };
   if (net.length < minimum) return { ...base, criteria: [size], insufficient: true };
   const criteria: Criterion[] = [size];
-  // The mean criterion is filled in by the evaluator from the mean test (see evaluate.ts).
+  // The mean criterion is the mean test's conclusion: the evaluator inserts it here once the test has run.
+  const meanTestCriterionAt = criteria.length;
   if (p.lowerLimit) criteria.push(limitCriterion('lower-limit', countBelow(net, p.lowerLimit.value, 0).count, p.lowerLimit, unit));
   if (p.upperLimit) criteria.push(limitCriterion('upper-limit', countAbove(net, p.upperLimit.value), p.upperLimit, unit));
-  return { ...base, criteria, insufficient: false };
+  return { ...base, criteria, insufficient: false, meanTestCriterionAt };
 }
 
 export const custom: Rulebook = { info: CUSTOM_INFO, validate, judge };

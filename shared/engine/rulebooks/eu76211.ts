@@ -7,6 +7,7 @@
  * - Defective units (below T1) against the sampling plans of Annex II, 2.2: non-destructive double
  *   plan 2.2.1 by lot size; destructive single plan 2.2.2 (20 packs, accept ≤ 1, reject ≥ 2).
  * - No pack below T2: Annex I, 1.3.
+ * - A warning when the tare sample's spread exceeds 0.25 × TNE (see `tareSpreadWarnings`).
  * - Mean check x̄ ≥ Qn − t(0.995; n − 1)·s/√n: Annex II, 2.3; sample sizes 30 (non-destructive,
  *   lot 100 to 500), 50 (non-destructive, over 500), 20 (destructive).
  * - Lots under 100 packs: non-destructive checking is 100 %, destructive testing is not used
@@ -32,7 +33,16 @@ import type { LotInput, RulebookInfo } from '../types';
 import type { Judgement, JudgeContext, Rulebook } from './types';
 import { engineError } from '../errors';
 import { tolerableNegativeError } from './tne';
-import { countBelow, countBelowT1T2, meanCheckFactor, meanCriterion, sampleSizeCriterion, t1Criterion, t2Criterion } from './criteria';
+import {
+  countBelow,
+  countBelowT1T2,
+  meanCheckFactor,
+  meanCriterion,
+  sampleSizeCriterion,
+  t1Criterion,
+  t2Criterion,
+  tareSpreadWarnings,
+} from './criteria';
 
 export const EU_76_211_INFO: RulebookInfo = {
   id: 'eu-76-211',
@@ -143,7 +153,8 @@ function judge(ctx: JudgeContext): Judgement | { error: ReturnType<typeof engine
   const plan = euPlan(lotSize, testing, planChoice(input) ?? 'double')!;
   const n = net.length;
   const meanTest = { hypothesisedMean: qn, alternative: 'less' as const, alpha: 0.005, unit };
-  const base = { meanTest, tne: { value: tne, baseValue: tneRes.baseValue }, warnings: [] as string[] };
+  const warnings = tareSpreadWarnings(ctx.tareSampleStandardDeviation, tne, unit);
+  const base = { meanTest, tne: { value: tne, baseValue: tneRes.baseValue }, warnings };
   const lotText = `for a ${testing} check of a lot of ${lotSize} packs`;
 
   const everyPack = n === lotSize && ctx.previousCount === 0;

@@ -11,13 +11,14 @@
  *
  * Same mean check form as the EU average system; no pack may fall below T2. Choices made here,
  * as for eu-76-211: λ for the actual n; a larger sample is judged with the plan's allowed count;
- * when every pack of the lot is measured the mean check is x̄ ≥ Qn.
+ * when every pack of the lot is measured the mean check is x̄ ≥ Qn. The tare-sample warning at
+ * 0.25 × TNE is given as for eu-76-211 (see `tareSpreadWarnings`).
  */
 import type { LotInput, RulebookInfo } from '../types';
 import type { Judgement, JudgeContext, Rulebook } from './types';
 import { engineError } from '../errors';
 import { tolerableNegativeError } from './tne';
-import { countBelowT1T2, meanCheckFactor, meanCriterion, sampleSizeCriterion, t1Criterion, t2Criterion } from './criteria';
+import { countBelowT1T2, meanCheckFactor, meanCriterion, sampleSizeCriterion, t1Criterion, t2Criterion, tareSpreadWarnings } from './criteria';
 
 export const OIML_R87_INFO: RulebookInfo = {
   id: 'oiml-r87-2016',
@@ -66,7 +67,7 @@ function judge(ctx: JudgeContext): Judgement | { error: ReturnType<typeof engine
   const base = {
     meanTest: { hypothesisedMean: qn, alternative: 'less' as const, alpha: 0.005, unit },
     tne: { value: tne, baseValue: tneRes.baseValue },
-    warnings: [] as string[],
+    warnings: tareSpreadWarnings(ctx.tareSampleStandardDeviation, tne, unit),
   };
   const required = plan.n ?? lotSize;
   const lotText = `for a lot of ${lotSize} packs (OIML R 87 plan, from memory; verify)`;

@@ -12,6 +12,8 @@ export interface JudgeContext {
   qn: number;
   mean: number;
   standardDeviation: number;
+  /** Standard deviation of the tare sample in the declared unit (tare mode 'sample', two or more tares), else null. */
+  tareSampleStandardDeviation: number | null;
 }
 
 export interface Judgement {
@@ -21,8 +23,15 @@ export interface Judgement {
   /** Set when a double sampling plan needs a second sample. */
   additionalPacks: number | null;
   meanTest: MeanTestOptions & { knownStandardDeviation?: number };
+  /**
+   * Set by a rulebook whose mean criterion is the mean test's own conclusion (p against α): the
+   * index in `criteria` at which the evaluator inserts that criterion once the test has run
+   * (see `meanTestCriterion` in ./criteria.ts). Absent otherwise.
+   */
+  meanTestCriterionAt?: number;
   /** TNE in the declared unit and in g/mL, or null when the rulebook has none. */
   tne: { value: number; baseValue: number } | null;
+  /** The rulebook's warnings, in the order the verdict lists them. */
   warnings: string[];
   /** 0-based indices of packs below T1 and below T2 (first 100 each), when the rulebook has a TNE. */
   belowT1Indices?: number[];

@@ -75,7 +75,3 @@ export function describeSeries(x: ArrayLike<number>, unit: Unit): DescribedSerie
     maxIndex,
   };
 }
-
-export function describe(x: ArrayLike<number>, unit: Unit): DescriptiveStatistics {
-  return describeSeries(x, unit).descriptive;
-}
