@@ -2,6 +2,12 @@
 // merged into one document. Each part may add `paths`, `tags` and `components`; a name defined twice
 // is an error. The merged document is the single source of truth for request and response shapes,
 // for the generated types, for /docs, and (through `x-lotproof-access`) for who may call what.
+//
+// Every file with paths names the area of the API that owns them at its top level
+// (`x-lotproof-area: identity`; openapi.yaml's own routes are `system`). The loader stamps each
+// operation with its file's area (`x-lotproof-area` on the operation, so /v1/openapi.json shows
+// every operation's owner) and refuses a file with paths but no area. The top-level keys themselves
+// are not merged into the document.
 import { readFileSync, readdirSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -16,12 +22,52 @@ export interface Operation {
   method: HttpMethod;
   path: string;
   access: Access;
+  /** The area of the API that owns the operation (`x-lotproof-area`: system, identity, …). */
+  area: string;
   definition: Record<string, unknown>;
 }
 
 type Doc = Record<string, any>;
 
+/** The extension naming an area: at the top of each file of the document, and stamped on each operation. */
+export const AREA_KEY = 'x-lotproof-area';
+const AREA_NAME = /^[a-z][a-z0-9-]*$/;
+
 const here = dirname(fileURLToPath(import.meta.url));
+
+/**
+ * Takes the top-level `x-lotproof-area` off a file of the document and returns it, so that it is
+ * never merged into the document's root. A file with paths must have one.
+ */
+function takeArea(file: Doc, name: string): string | undefined {
+  const area = file[AREA_KEY];
+  delete file[AREA_KEY];
+  if (area === undefined || area === null) {
+    if (file.paths && typeof file.paths === 'object' && Object.keys(file.paths).length > 0) {
+      throw new Error(`OpenAPI: ${name} has paths but no top-level ${AREA_KEY}; name the area of the API that owns them (e.g. "${AREA_KEY}: verdicts")`);
+    }
+    return undefined;
+  }
+  if (typeof area !== 'string' || !AREA_NAME.test(area)) {
+    throw new Error(`OpenAPI: ${name}: ${AREA_KEY} must be an area name in lower case (e.g. "verdicts"), not ${JSON.stringify(area)}`);
+  }
+  return area;
+}
+
+/** Marks every operation of a file's paths with the file's area. */
+function stampArea(paths: Doc, area: string, name: string): void {
+  for (const [path, item] of Object.entries(paths)) {
+    for (const method of HTTP_METHODS) {
+      const definition = (item as Doc | null)?.[method];
+      if (!definition || typeof definition !== 'object') continue;
+      const own = definition[AREA_KEY];
+      if (own !== undefined && own !== area) {
+        throw new Error(`OpenAPI: ${name}: ${method.toUpperCase()} ${path} says ${AREA_KEY} ${JSON.stringify(own)}, but the file's area is "${area}"`);
+      }
+      definition[AREA_KEY] = area;
+    }
+  }
+}
 
 function mergeInto(target: Doc, source: Doc, where: string): void {
   for (const [key, value] of Object.entries(source)) {
@@ -82,14 +128,20 @@ let cached: Doc | null = null;
 export function loadApiDocument(dir = here): Doc {
   if (!cached || dir !== here) {
     const root: Doc = parse(readFileSync(join(dir, 'openapi.yaml'), 'utf8'));
+    const rootArea = takeArea(root, 'openapi.yaml');
     root.paths ??= {};
+    if (rootArea) stampArea(root.paths, rootArea, 'openapi.yaml');
     root.components ??= {};
     root.tags ??= [];
     const partsDir = join(dir, 'parts');
     const parts = readdirSync(partsDir).filter((f) => f.endsWith('.yaml')).sort();
     for (const file of parts) {
       const part: Doc = parse(readFileSync(join(partsDir, file), 'utf8')) ?? {};
-      if (part.paths) mergeInto(root.paths, part.paths, `${file}: paths`);
+      const area = takeArea(part, `parts/${file}`);
+      if (part.paths) {
+        if (area) stampArea(part.paths, area, `parts/${file}`);
+        mergeInto(root.paths, part.paths, `${file}: paths`);
+      }
       if (part.tags) root.tags.push(...part.tags);
       for (const [section, entries] of Object.entries(part.components ?? {})) {
         root.components[section] ??= {};
@@ -106,7 +158,7 @@ export function loadApiDocument(dir = here): Doc {
   return structuredClone(cached);
 }
 
-/** Every operation of the document; throws if one lacks an operationId or a valid access rule. */
+/** Every operation of the document; throws if one lacks an operationId, a valid access rule or an area. */
 export function operationsOf(doc: Doc): Operation[] {
   const ops: Operation[] = [];
   for (const [path, item] of Object.entries(doc.paths ?? {})) {
@@ -118,7 +170,11 @@ export function operationsOf(doc: Doc): Operation[] {
       if (!validAccess(access)) {
         throw new Error(`OpenAPI: ${definition.operationId} (${method.toUpperCase()} ${path}) declares no valid x-lotproof-access`);
       }
-      ops.push({ operationId: definition.operationId, method, path, access, definition });
+      const area = definition[AREA_KEY];
+      if (typeof area !== 'string' || !AREA_NAME.test(area)) {
+        throw new Error(`OpenAPI: ${definition.operationId} (${method.toUpperCase()} ${path}) has no ${AREA_KEY}; its file names none`);
+      }
+      ops.push({ operationId: definition.operationId, method, path, access, area, definition });
     }
   }
   return ops;

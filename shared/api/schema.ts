@@ -274,26 +274,6 @@ export interface paths {
         patch?: never;
         trace?: never;
     };
-    "/v1/usage": {
-        parameters: {
-            query?: never;
-            header?: never;
-            path?: never;
-            cookie?: never;
-        };
-        /**
-         * Requests, lots and measurements per key per UTC day
-         * @description Defaults to the last 31 days up to today (UTC); at most 366 days at once. Console use is one row per day with `keyId` null.
-         */
-        get: operations["getUsage"];
-        put?: never;
-        post?: never;
-        delete?: never;
-        options?: never;
-        head?: never;
-        patch?: never;
-        trace?: never;
-    };
     "/v1/audit-events": {
         parameters: {
             query?: never;
@@ -328,32 +308,18 @@ export interface paths {
         patch?: never;
         trace?: never;
     };
-    "/.well-known/jwks.json": {
+    "/v1/usage": {
         parameters: {
             query?: never;
             header?: never;
             path?: never;
             cookie?: never;
         };
-        /** Public keys that sign seals (RFC 7517 JWK Set, RFC 8037 OKP Ed25519) */
-        get: operations["getJwks"];
-        put?: never;
-        post?: never;
-        delete?: never;
-        options?: never;
-        head?: never;
-        patch?: never;
-        trace?: never;
-    };
-    "/v1/rulebooks": {
-        parameters: {
-            query?: never;
-            header?: never;
-            path?: never;
-            cookie?: never;
-        };
-        /** The rulebooks a product can be judged by, with their sources and parameters */
-        get: operations["listRulebooks"];
+        /**
+         * Requests, lots and measurements per key per UTC day
+         * @description Defaults to the last 31 days up to today (UTC); at most 366 days at once. Console use is one row per day with `keyId` null.
+         */
+        get: operations["getUsage"];
         put?: never;
         post?: never;
         delete?: never;
@@ -399,6 +365,40 @@ export interface paths {
         head?: never;
         /** Change a product; stored verdicts keep the spec they were judged with */
         patch: operations["updateProduct"];
+        trace?: never;
+    };
+    "/.well-known/jwks.json": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** Public keys that sign seals (RFC 7517 JWK Set, RFC 8037 OKP Ed25519) */
+        get: operations["getJwks"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/rulebooks": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** The rulebooks a product can be judged by, with their sources and parameters */
+        get: operations["listRulebooks"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
         trace?: never;
     };
     "/v1/lots": {
@@ -767,29 +767,6 @@ export interface components {
             /** @enum {string} */
             status: "active" | "revoked" | "expired";
         };
-        UsageCounts: {
-            requests: number;
-            lots: number;
-            measurements: number;
-        };
-        UsageReport: {
-            /** Format: date */
-            from: string;
-            /** Format: date */
-            to: string;
-            days: (components["schemas"]["UsageCounts"] & {
-                /** Format: date */
-                day: string;
-                /**
-                 * Format: uuid
-                 * @description null for console sessions
-                 */
-                keyId: string | null;
-                keyName: string;
-                keyPrefix: string | null;
-            })[];
-            totals: components["schemas"]["UsageCounts"];
-        };
         /** @enum {string} */
         AuditAction: "key.created" | "key.revoked" | "user.invited" | "invitation.revoked" | "invitation.accepted" | "user.role-changed" | "user.removed" | "user.signed-in" | "user.sign-in-failed" | "user.password-reset-requested" | "user.password-reset" | "organisation.created";
         AuditEvent: {
@@ -828,30 +805,36 @@ export interface components {
             text: string;
             html: string | null;
         };
+        UsageCounts: {
+            requests: number;
+            lots: number;
+            measurements: number;
+        };
+        UsageReport: {
+            /** Format: date */
+            from: string;
+            /** Format: date */
+            to: string;
+            days: (components["schemas"]["UsageCounts"] & {
+                /** Format: date */
+                day: string;
+                /**
+                 * Format: uuid
+                 * @description null for console sessions
+                 */
+                keyId: string | null;
+                keyName: string;
+                keyPrefix: string | null;
+            })[];
+            totals: components["schemas"]["UsageCounts"];
+        };
         /** @enum {string} */
         Unit: "g" | "kg" | "mg" | "mL" | "cL" | "L" | "oz" | "lb" | "fl oz";
-        /** @enum {string} */
-        Testing: "destructive" | "non-destructive";
         /**
          * @description none (net measured), fixed (one tare for every pack), per-pack (paired tares), sample (mean of a sample of empty packaging)
          * @enum {string}
          */
         TareMode: "none" | "fixed" | "per-pack" | "sample";
-        /** @enum {string} */
-        Decision: "conforming" | "nonconforming" | "second-sample-required" | "insufficient-data";
-        RulebookChoice: {
-            /** @enum {string} */
-            id: "eu-76-211" | "oiml-r87-2016" | "custom";
-            /**
-             * @description Parameters of the chosen rulebook, as GET /v1/rulebooks lists them: for `custom` its significance level, limits and smallest sample; for `eu-76-211` `nonDestructivePlan`, `double` (the Directive's plan, the default) or `single` (the single plan of the UK reference test, SI 2006/659 Schedule 2 para 3.3–3.5).
-             * @example {
-             *       "nonDestructivePlan": "double"
-             *     }
-             */
-            params?: {
-                [key: string]: unknown;
-            };
-        };
         ProductInput: {
             /** @description Your SKU code, unique among your active products */
             sku: string;
@@ -906,6 +889,23 @@ export interface components {
         ProductPage: {
             items: components["schemas"]["Product"][];
             nextCursor: string | null;
+        };
+        /** @enum {string} */
+        Testing: "destructive" | "non-destructive";
+        /** @enum {string} */
+        Decision: "conforming" | "nonconforming" | "second-sample-required" | "insufficient-data";
+        RulebookChoice: {
+            /** @enum {string} */
+            id: "eu-76-211" | "oiml-r87-2016" | "custom";
+            /**
+             * @description Parameters of the chosen rulebook, as GET /v1/rulebooks lists them: for `custom` its significance level, limits and smallest sample; for `eu-76-211` `nonDestructivePlan`, `double` (the Directive's plan, the default) or `single` (the single plan of the UK reference test, SI 2006/659 Schedule 2 para 3.3–3.5).
+             * @example {
+             *       "nonDestructivePlan": "double"
+             *     }
+             */
+            params?: {
+                [key: string]: unknown;
+            };
         };
         /** @description Give the product by `productId` or `sku`. lotCode, lotSize and testing are required except for a second sample, which takes them from the first. */
         LotSubmission: {
@@ -1208,7 +1208,6 @@ export interface components {
         KeyId: string;
         ProductId: string;
         VerdictId: string;
-        WebhookId: string;
         /** @description Only verdicts of this product */
         FilterProductId: string;
         /** @description Only lots from this packing line */
@@ -1228,6 +1227,7 @@ export interface components {
          *     `decision` orders the decision names alphabetically.
          */
         VerdictSort: "recordedAt" | "-recordedAt" | "lotCode" | "-lotCode" | "decision" | "-decision" | "packedAt" | "-packedAt";
+        WebhookId: string;
     };
     requestBodies: never;
     headers: never;
@@ -1805,34 +1805,6 @@ export interface operations {
             default: components["responses"]["Problem"];
         };
     };
-    getUsage: {
-        parameters: {
-            query?: {
-                /** @description Only this key */
-                keyId?: string;
-                /** @description First UTC day, inclusive (YYYY-MM-DD) */
-                from?: string;
-                /** @description Last UTC day, inclusive (YYYY-MM-DD) */
-                to?: string;
-            };
-            header?: never;
-            path?: never;
-            cookie?: never;
-        };
-        requestBody?: never;
-        responses: {
-            /** @description Usage */
-            200: {
-                headers: {
-                    [name: string]: unknown;
-                };
-                content: {
-                    "application/json": components["schemas"]["UsageReport"];
-                };
-            };
-            default: components["responses"]["Problem"];
-        };
-    };
     listAuditEvents: {
         parameters: {
             query?: {
@@ -1887,45 +1859,29 @@ export interface operations {
             default: components["responses"]["Problem"];
         };
     };
-    getJwks: {
+    getUsage: {
         parameters: {
-            query?: never;
-            header?: never;
-            path?: never;
-            cookie?: never;
-        };
-        requestBody?: never;
-        responses: {
-            /** @description The JWK Set */
-            200: {
-                headers: {
-                    [name: string]: unknown;
-                };
-                content: {
-                    "application/json": components["schemas"]["Jwks"];
-                };
+            query?: {
+                /** @description Only this key */
+                keyId?: string;
+                /** @description First UTC day, inclusive (YYYY-MM-DD) */
+                from?: string;
+                /** @description Last UTC day, inclusive (YYYY-MM-DD) */
+                to?: string;
             };
-            default: components["responses"]["Problem"];
-        };
-    };
-    listRulebooks: {
-        parameters: {
-            query?: never;
             header?: never;
             path?: never;
             cookie?: never;
         };
         requestBody?: never;
         responses: {
-            /** @description Rulebooks */
+            /** @description Usage */
             200: {
                 headers: {
                     [name: string]: unknown;
                 };
                 content: {
-                    "application/json": {
-                        items: components["schemas"]["Rulebook"][];
-                    };
+                    "application/json": components["schemas"]["UsageReport"];
                 };
             };
             default: components["responses"]["Problem"];
@@ -2053,6 +2009,50 @@ export interface operations {
                 };
                 content: {
                     "application/json": components["schemas"]["Product"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    getJwks: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The JWK Set */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Jwks"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    listRulebooks: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Rulebooks */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": {
+                        items: components["schemas"]["Rulebook"][];
+                    };
                 };
             };
             default: components["responses"]["Problem"];
