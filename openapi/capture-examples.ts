@@ -20,8 +20,8 @@ import { createLogger } from '../server/logger';
 import { ensureDebianPackages } from '../server/platform/debian-packages';
 import { destroyCluster, freePort, startCluster } from '../server/platform/embedded-postgres';
 import { capturedMail, startSmtpFake } from '../server/platform/smtp-fake';
-import { createOrganisation } from '../server/services/organisations';
-import { createUser } from '../server/services/users';
+import { createOrganisation } from '../server/identity/organisations';
+import { createUser } from '../server/identity/users';
 import { exampleKey, loadApiDocument, operationsOf } from './load';
 
 const out = join(dirname(fileURLToPath(import.meta.url)), 'parts', 'examples.yaml');

@@ -12,14 +12,15 @@ import swaggerUi from 'swagger-ui-express';
 import * as OpenApiValidator from 'express-openapi-validator';
 import { loadApiDocument, operationsOf } from '../openapi/load';
 import { authenticate, authorize } from './http/access';
-import { createMeter } from './http/metering';
+import { createMeter } from './metering/request-meter.http';
 import { fixedHeaders } from './http/fixed-headers';
 import { inputGuards, storableFormats } from './http/input-guards';
 import { memoiseValidatorRouteRegexps } from './http/route-regexp-cache';
-import { IDLE_MINUTES_LOCAL, registerSessionResolver } from './http/session-auth';
+import { registerAuthentication } from './identity/authentication.http';
+import { IDLE_MINUTES_LOCAL } from './identity/session-cookie.http';
 import type { AppContext } from './http/context';
 import { notFoundHandler, PayloadTooLargeProblem, problemHandler } from './http/problem';
-import { allHandlers } from './routes';
+import { handlersFor } from './routes';
 
 const root = join(dirname(fileURLToPath(import.meta.url)), '..');
 export const CONSOLE_DIST = join(root, 'dist', 'console');
@@ -34,9 +35,7 @@ function expressPath(path: string): string {
 export function createApp(ctx: AppContext): Express {
   const doc = loadApiDocument();
   const operations = operationsOf(doc);
-  const handlers = allHandlers(ctx);
-  const missing = operations.filter((op) => !handlers[op.operationId]).map((op) => op.operationId);
-  if (missing.length > 0) throw new Error(`No handler for operation(s): ${missing.join(', ')}`);
+  const handlers = handlersFor(ctx, operations);
 
   const app = express();
   app.disable('x-powered-by');
@@ -106,7 +105,7 @@ export function createApp(ctx: AppContext): Express {
 
   // Console sessions (cookie) besides bearer keys; then rate limits and usage for every API request.
   app.locals[IDLE_MINUTES_LOCAL] = ctx.config.sessions.idleMinutes;
-  registerSessionResolver();
+  registerAuthentication();
   app.use(cookieParser());
   const meter = createMeter(ctx);
   app.use((req, res, next) => (API_PATH.test(req.path) ? authenticate(req, res, (err?: unknown) => void meter(req, res, next, err)) : next()));

@@ -8,10 +8,10 @@ import { migrate } from './db/migrate';
 import type { AppContext } from './http/context';
 import { answerClientErrorsAsProblems } from './http/client-errors';
 import { startJobs, type RunningJobs } from './jobs';
-import { currentSigningKey, publishSigningKey } from './services/signing-keys';
-import { secretBox } from './services/secret-box';
-import { resealWebhookSecrets } from './services/webhooks';
-import { startAsideWorker } from './services/canonical-aside';
+import { currentSigningKey, publishSigningKey } from './verdicts/signing-keys';
+import { secretBox } from './core/secret-box';
+import { resealWebhookSecrets } from './webhooks/endpoints';
+import { startAsideWorker } from './verdicts/canonical-aside';
 
 export interface RunningServer {
   url: string;

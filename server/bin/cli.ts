@@ -10,19 +10,19 @@ import { parseArgs } from 'node:util';
 import { ConfigError, loadConfig } from '../config';
 import { openDatabase, type Database } from '../db/database';
 import { migrate } from '../db/migrate';
-import { ProblemError } from '../http/problem';
+import { Failure } from '../core/errors';
 import { ApiKey } from '../models';
 import { ensureDebianPackages, MissingPackagesError } from '../platform/debian-packages';
 import { startCluster, type RunningCluster } from '../platform/embedded-postgres';
-import { recordAudit } from '../services/audit-trail';
-import { issueInvitation } from '../services/invitations';
-import { apiKeyView, createKey, listKeys, revokeKey } from '../services/key-management';
-import { createOrganisation, findOrganisation } from '../services/organisations';
-import { SCOPES, type Principal, type Scope } from '../services/principal';
-import { createUser } from '../services/users';
-import { currentSigningKey, publishSigningKey, rotateSigningKeyFile } from '../services/signing-keys';
-import { rotateSecretsKeyFile, secretBox } from '../services/secret-box';
-import { resealWebhookSecrets } from '../services/webhooks';
+import { recordAudit } from '../identity/audit-trail';
+import { issueInvitation } from '../identity/invitations';
+import { apiKeyView, createKey, listKeys, revokeKey } from '../identity/api-keys';
+import { createOrganisation, findOrganisation } from '../identity/organisations';
+import { SCOPES, type Principal, type Scope } from '../core/principal';
+import { createUser } from '../identity/users';
+import { currentSigningKey, publishSigningKey, rotateSigningKeyFile } from '../verdicts/signing-keys';
+import { rotateSecretsKeyFile, secretBox } from '../core/secret-box';
+import { resealWebhookSecrets } from '../webhooks/endpoints';
 
 const USAGE = `Lotproof operator CLI
 
@@ -225,8 +225,8 @@ main(process.argv.slice(2)).catch((err) => {
   if (err instanceof UsageError || err instanceof ConfigError || err instanceof MissingPackagesError) {
     console.error(err.message);
     process.exitCode = 2;
-  } else if (err instanceof ProblemError) {
-    console.error(err.detail);
+  } else if (err instanceof Failure) {
+    console.error(err.message);
     process.exitCode = 1;
   } else if (err instanceof TypeError && /parseArgs|Unknown option/i.test(String(err.message))) {
     console.error(`${err.message}\n\n${USAGE}`);

@@ -1,27 +1,42 @@
-// Hot-path queries straight on node-postgres, beside Sequelize: a named (prepared) statement on a
-// connection borrowed from Sequelize's own pool, rows as plain objects. Each connection parses a
-// named statement once and then only binds and executes it, and no model instances are built.
-// Persistence only; the models stay for everything else.
+// Hot-path queries straight on node-postgres, beside Sequelize: a connection borrowed from
+// Sequelize's own pool, named (prepared) statements, rows as plain objects. Each connection parses
+// a named statement once and then only binds and executes it, and no model instances are built.
+// Persistence only. The one declaration of the raw client's types is here.
 import type { Sequelize } from 'sequelize';
 import { perKeyBatches } from './per-key-batches';
 
-interface PgClient {
-  query(q: { name: string; text: string; values: unknown[] }): Promise<{ rows: Record<string, unknown>[] }>;
+/** A query's result as node-postgres gives it. */
+export interface PgResult {
+  command: string;
+  rows: Record<string, unknown>[];
 }
+
+/** The node-postgres client behind a Sequelize connection (what the connection manager hands out). */
+export interface PgClient {
+  /** A simple-protocol text (several statements allowed: one result each), or an extended-protocol query. */
+  query(text: string | { name?: string; text: string; values: unknown[] }, values?: unknown[]): Promise<PgResult | PgResult[]>;
+  escapeLiteral(s: string): string;
+}
+
 interface ConnectionManager {
   getConnection(): Promise<PgClient>;
   releaseConnection(c: PgClient): Promise<void>;
 }
 
-/** Runs a named prepared statement; `name` must always go with the same `text`. */
-export async function preparedRows<T>(sequelize: Sequelize, name: string, text: string, values: unknown[]): Promise<T[]> {
+/** Runs `work` on a connection of Sequelize's pool, and gives the connection back afterwards. */
+export async function withConnection<T>(sequelize: Sequelize, work: (conn: PgClient) => Promise<T>): Promise<T> {
   const cm = sequelize.connectionManager as unknown as ConnectionManager;
   const conn = await cm.getConnection();
   try {
-    return (await conn.query({ name, text, values })).rows as T[];
+    return await work(conn);
   } finally {
     await cm.releaseConnection(conn);
   }
+}
+
+/** Runs a named prepared statement; `name` must always go with the same `text`. */
+export function preparedRows<T>(sequelize: Sequelize, name: string, text: string, values: unknown[]): Promise<T[]> {
+  return withConnection(sequelize, async (conn) => ((await conn.query({ name, text, values })) as PgResult).rows as T[]);
 }
 
 /**

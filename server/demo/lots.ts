@@ -2,11 +2,12 @@
 // weeks, judged and sealed like any other. Measurements come from a seeded generator, so every
 // fresh start invents the same lots; everything is labelled (demo). Mostly conforming, a few
 // nonconforming, one waiting for a second sample.
+import { createHash } from 'node:crypto';
 import { QueryTypes } from 'sequelize';
 import { Product } from '../models';
-import { submitLot, type LotSubmission } from '../services/lots';
-import type { Principal } from '../services/principal';
-import { createProduct, type ProductInput } from '../services/products';
+import { submitLot, SUBMIT_OPERATION, type LotSubmission } from '../verdicts/lot-submission';
+import type { Principal } from '../core/principal';
+import { createProduct, type ProductInput } from '../products/products';
 import { packContents, seededRng, type Rng } from './random';
 import { addDemoStep } from './seed';
 
@@ -102,7 +103,10 @@ addDemoStep(async (ctx, org) => {
     for (const [i, p] of plan.entries()) {
       const packedAt = new Date(start + i * (34 * DAY) / plan.length + 6 * 3_600_000);
       const body = lotFor(rng, p.sku, p.kind, i, packedAt);
-      await submitLot(ctx.db.sequelize, ctx.config, principal, { kind: 'json', body, query: {} }, `demo-lot-${i}`);
+      // keyed as if the body were sent as this JSON text, so a second seeding replays it
+      const requestHash = createHash('sha256').update('json\n').update(JSON.stringify(body)).digest('hex');
+      const claim = { organisationId: principal.organisationId, operation: SUBMIT_OPERATION, key: `demo-lot-${i}`, requestHash };
+      await submitLot(ctx.db.sequelize, ctx.config, principal, { sub: body, source: { format: 'json' } }, claim);
     }
   }
   const rows = await ctx.db.sequelize.query<{ decision: string; n: number }>(

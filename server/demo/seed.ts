@@ -5,8 +5,8 @@ import { chmodSync, existsSync, mkdirSync, readFileSync, writeFileSync } from 'n
 import { join } from 'node:path';
 import type { AppContext } from '../http/context';
 import { Organisation } from '../models';
-import { issueApiKey, verifyApiKey } from '../services/api-keys';
-import type { Scope } from '../services/principal';
+import { issueApiKey, verifyApiKey } from '../identity/api-key-store';
+import type { Scope } from '../core/principal';
 
 export const DEMO_ORG = { name: 'Fernhill Provisions (demo)', slug: 'fernhill-demo' };
 /** The demo key may do everything a plant system does, but cannot manage keys. */

@@ -2,9 +2,9 @@
 // start banner prints (they are kept with the other demo credentials in the git-ignored data folder).
 import { randomBytes } from 'node:crypto';
 import { User } from '../models';
-import type { Role } from '../services/principal';
-import { hashPassword, verifyPassword } from '../services/secrets';
-import { createUser } from '../services/users';
+import type { Role } from '../core/principal';
+import { hashPassword, verifyPassword } from '../identity/credentials';
+import { createUser } from '../identity/users';
 import { addDemoStep } from './seed';
 
 const DEMO_USERS: Array<{ role: Role; email: string; name: string }> = [

@@ -1,11 +1,12 @@
-// Authentication (who is calling) and authorisation (may they call this operation).
-// The rule for each operation is declared once, as `x-lotproof-access` in the OpenAPI document.
+// Authentication (who is calling) and authorisation (may they call this operation), as HTTP
+// plumbing: a bearer credential and other ways of signing in are checked by what the identity area
+// registers here (identity/authentication.ts); the rule for each operation is declared once, as
+// `x-lotproof-access` in the OpenAPI document.
 import passport from 'passport';
 import { Strategy as BearerStrategy } from 'passport-http-bearer';
 import type { RequestHandler } from 'express';
 import type { Access } from '../../openapi/load';
-import { verifyApiKey } from '../services/api-keys';
-import type { Principal, Role, Scope } from '../services/principal';
+import type { Principal, Role, Scope } from '../core/principal';
 import { ForbiddenProblem, UnauthorizedProblem } from './problem';
 
 declare module 'express-serve-static-core' {
@@ -16,21 +17,23 @@ declare module 'express-serve-static-core' {
   }
 }
 
-const REASONS = {
-  malformed: 'The bearer credential is not a Lotproof API key.',
-  unknown: 'The API key is not valid.',
-  revoked: 'The API key has been revoked.',
-  expired: 'The API key has expired.',
-} as const;
+/** The answer to a bearer credential: who it is, or why it is refused (said to the caller). */
+export type BearerCheck = { ok: true; principal: Principal } | { ok: false; detail: string };
+let verifyBearer: ((token: string) => Promise<BearerCheck>) | null = null;
+/** Sets how a bearer credential is checked (the identity area's API keys). */
+export function setBearerVerifier(verify: (token: string) => Promise<BearerCheck>): void {
+  verifyBearer = verify;
+}
 
-const failures = new WeakMap<object, keyof typeof REASONS>();
+const failures = new WeakMap<object, string>();
 
 passport.use(
   new BearerStrategy({ passReqToCallback: true, realm: 'lotproof' }, (req: object, token: string, done: (err: unknown, user?: Principal | false) => void) => {
-    verifyApiKey(token).then(
+    if (!verifyBearer) return done(new Error('no bearer verifier registered'));
+    verifyBearer(token).then(
       (check) => {
         if (check.ok) return done(null, check.principal);
-        failures.set(req, check.reason);
+        failures.set(req, check.detail);
         done(null, false);
       },
       (err) => done(err),
@@ -52,7 +55,7 @@ export const authenticate: RequestHandler = (req, res, next) => {
       if (err) return next(err);
       if (!principal) {
         res.setHeader('WWW-Authenticate', 'Bearer realm="lotproof", error="invalid_token"');
-        return next(new UnauthorizedProblem(REASONS[failures.get(req) ?? 'unknown']));
+        return next(new UnauthorizedProblem(failures.get(req) ?? 'The bearer credential is not valid.'));
       }
       req.principal = principal;
       next();

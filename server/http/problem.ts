@@ -1,5 +1,9 @@
-// RFC 9457 problem details: one error type per failure kind, mapped to a response in one place.
-import type { ErrorRequestHandler, RequestHandler, Response } from 'express';
+// RFC 9457 problem details, rendered in one place: the transport-neutral failures the areas throw
+// (server/core/errors.ts) get their status here and their fields' pointers into the request as
+// sent; the HTTP plumbing's own refusals (authentication, body limits, the validator) are
+// ProblemErrors already.
+import type { ErrorRequestHandler, Request, RequestHandler, Response } from 'express';
+import { Conflict, Failure, type FieldIssue, InvalidInput, NotAllowed, NotAuthenticated, NotFound, Refused, TooLarge, TooMany, Unavailable } from '../core/errors';
 
 export const PROBLEM_BASE = 'https://lotproof.dev/problems/';
 
@@ -125,9 +129,71 @@ interface ValidatorError {
   headers?: Record<string, string>;
 }
 
+/** The status of each failure kind, and the title of a status (a few codes have titles of their own). */
+const FAILURE_STATUS: [abstract new (...args: never[]) => Failure, number][] = [
+  [InvalidInput, 400],
+  [NotAuthenticated, 401],
+  [NotAllowed, 403],
+  [NotFound, 404],
+  [Conflict, 409],
+  [TooLarge, 413],
+  [Refused, 422],
+  [TooMany, 429],
+  [Unavailable, 503],
+];
+const STATUS_TITLE: Record<number, string> = {
+  400: 'Request is not valid',
+  401: 'Not authenticated',
+  403: 'Not allowed',
+  404: 'Not found',
+  409: 'Conflict',
+  413: 'Request body too large',
+  422: 'Request cannot be processed',
+  429: 'Too many requests',
+  503: 'Service unavailable',
+};
+const CODE_TITLE: Record<string, string> = { validation: 'Request is not valid' };
+
+/**
+ * Where a field of a rule's input ("/expiresAt") was in the request: a path parameter, a query
+ * parameter, or the body ("/path/…", "/query/…", "/body/…"). The first segment decides; a request
+ * without a body names the query.
+ */
+export function requestPointer(req: Pick<Request, 'params' | 'query' | 'body' | 'method'> | undefined, field: string): string {
+  if (!req) return field;
+  const first = decodeURIComponent(field.split('/')[1] ?? '').replace(/~1/g, '/').replace(/~0/g, '~');
+  const has = (o: unknown) => typeof o === 'object' && o !== null && !Array.isArray(o) && first in (o as object);
+  if (first && has(req.params)) return `/path${field}`;
+  if (first && has(req.query)) return `/query${field}`;
+  if (has(req.body) || (req.method !== 'GET' && req.method !== 'DELETE' && req.method !== 'HEAD')) return `/body${field}`;
+  return `/query${field}`;
+}
+
+/** Where a field issue points in the request, and how it reads there. */
+export type LocateField = (issue: FieldIssue) => InvalidParam & { line?: number };
+
+/**
+ * A failure as a problem: its status by kind, each field issue located in the request — by
+ * default through `requestPointer`; a route whose fields travel differently (a CSV lot) passes
+ * its own `locate`, and may reword the detail to match.
+ */
+export function failureProblem(
+  f: Failure,
+  locate: LocateField | Pick<Request, 'params' | 'query' | 'body' | 'method'> | undefined,
+  detail: string = f.message,
+): ProblemError {
+  if (f instanceof TooMany) return new RateLimitedProblem(f.message, f.retryAfterSeconds);
+  const status = FAILURE_STATUS.find(([kind]) => f instanceof kind)?.[1] ?? 422;
+  const at: LocateField = typeof locate === 'function' ? locate : (x) => ({ pointer: requestPointer(locate, x.field), detail: x.detail });
+  const errors = f.fields.map(at);
+  const extensions = { ...f.facts, ...(errors.length > 0 ? { errors } : {}) };
+  return new ProblemError(status, f.code, CODE_TITLE[f.code] ?? STATUS_TITLE[status]!, detail, extensions);
+}
+
 /** Maps any error to a problem body. Unknown errors become a 500 without internals. */
-export function toProblem(err: unknown): { problem: ProblemBody; headers: Record<string, string>; unexpected: boolean } {
+export function toProblem(err: unknown, req?: Request): { problem: ProblemBody; headers: Record<string, string>; unexpected: boolean } {
   const headers: Record<string, string> = {};
+  if (err instanceof Failure) err = failureProblem(err, req);
   if (err instanceof ProblemError) {
     if (err instanceof RateLimitedProblem) headers['Retry-After'] = String(err.retryAfterSeconds);
     return {
@@ -196,7 +262,7 @@ export function toProblem(err: unknown): { problem: ProblemBody; headers: Record
 }
 
 export const problemHandler: ErrorRequestHandler = (err, req, res, _next) => {
-  const { problem, headers, unexpected } = toProblem(err);
+  const { problem, headers, unexpected } = toProblem(err, req);
   if (unexpected) req.log?.error({ err }, 'unexpected error');
   else if (problem.status >= 500) req.log?.warn({ problem: problem.type }, problem.detail);
   if (res.headersSent) {

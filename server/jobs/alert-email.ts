@@ -1,6 +1,6 @@
 // Sends the alert e-mail for a nonconforming lot to the product's recipients (one message each).
 import { QueryTypes } from 'sequelize';
-import { sendMail } from '../services/mailer';
+import { sendMail } from '../core/mailer';
 import type { JobDeps } from './webhook-delivery';
 
 export async function deliverAlertEmail(deps: JobDeps, emailId: string): Promise<void> {

@@ -6,10 +6,10 @@
 import PgBoss from 'pg-boss';
 import pg from 'pg';
 import type { AppContext } from '../http/context';
-import { ledgerEvents } from '../services/ledger';
+import { ledgerEvents } from '../verdicts/ledger';
 import { deliverAlertEmail } from './alert-email';
 import { deliverWebhook } from './webhook-delivery';
-import { secretBox } from '../services/secret-box';
+import { secretBox } from '../core/secret-box';
 
 export const WEBHOOK_QUEUE = 'webhook-delivery';
 export const EMAIL_QUEUE = 'alert-email';

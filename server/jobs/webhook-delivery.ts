@@ -7,8 +7,8 @@ import { QueryTypes, type Sequelize } from 'sequelize';
 import type { Logger } from 'pino';
 import type { Config } from '../config';
 import { postWebhook, RefusedTarget } from './webhook-post';
-import type { SecretBox } from '../services/secret-box';
-import { openWebhookSecret } from '../services/webhooks';
+import type { SecretBox } from '../core/secret-box';
+import { openWebhookSecret } from '../webhooks/endpoints';
 
 export interface JobDeps {
   sequelize: Sequelize;

@@ -8,7 +8,7 @@ import { lookup as dnsLookup, type LookupAddress } from 'node:dns';
 import http from 'node:http';
 import https from 'node:https';
 import { isIP, type LookupFunction } from 'node:net';
-import { isPrivateAddress } from '../services/webhooks';
+import { isPrivateAddress } from '../webhooks/endpoints';
 
 export class RefusedTarget extends Error {}
 

@@ -2,7 +2,7 @@
 // documented example lot with "Try it out", gets a sealed verdict, and a quality engineer then
 // finds that verdict in the console.
 import { beforeAll, describe, expect, it } from 'vitest';
-import { issueApiKey } from '../../server/services/api-keys';
+import { issueApiKey } from '../../server/identity/api-key-store';
 import { loadApiDocument } from '../../openapi/load';
 import { screenshot, seedProduct, signIn, useHarness } from './support';
 

@@ -10,9 +10,9 @@ import { join } from 'node:path';
 import { chromium, type BrowserContext, type Page } from 'playwright-core';
 import { afterAll, afterEach, beforeAll } from 'vitest';
 import { buildTestApp, createTestOrganisation, testConfig, type TestApp } from '../support/app';
-import { createUser } from '../../server/services/users';
-import type { Principal, Role } from '../../server/services/principal';
-import { createProduct, type ProductInput } from '../../server/services/products';
+import { createUser } from '../../server/identity/users';
+import type { Principal, Role } from '../../server/core/principal';
+import { createProduct, type ProductInput } from '../../server/products/products';
 
 export const SCREENSHOTS = join(process.cwd(), 'tests', 'artifacts', 'screenshots');
 export const PASSWORD = 'correct horse battery staple';

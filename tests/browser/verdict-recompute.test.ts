@@ -1,7 +1,7 @@
 // The verdict detail's Recompute action: the server re-runs the recorded engine on the stored input
 // and the page says, in words and with a mark, whether the stored result was reproduced exactly.
 import { beforeAll, describe, expect, it } from 'vitest';
-import { issueApiKey } from '../../server/services/api-keys';
+import { issueApiKey } from '../../server/identity/api-key-store';
 import { screenshot, seedProduct, signIn, useHarness } from './support';
 import { measurements } from '../support/lots';
 

@@ -12,8 +12,8 @@ import { freePort } from '../../server/platform/embedded-postgres';
 import { buildTestApp, createTestKey, createTestOrganisation, testConfig, testDatabaseUrl, type TestApp } from '../support/app';
 import { createTestUser, sessionCookieFor } from '../support/identity';
 import { useTempDirs } from '../support/temp-dirs';
-import { secretBox } from '../../server/services/secret-box';
-import { newWebhookSecret, openWebhookSecret, webhookSecretContext } from '../../server/services/webhooks';
+import { secretBox } from '../../server/core/secret-box';
+import { newWebhookSecret, openWebhookSecret, webhookSecretContext } from '../../server/webhooks/endpoints';
 
 const tempDir = useTempDirs('lotproof-rotate-');
 

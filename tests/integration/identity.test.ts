@@ -4,7 +4,7 @@ import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Organisation, User } from '../../server/models';
 import type { RunningSmtpFake } from '../../server/platform/smtp-fake';
-import { recordLotUsage } from '../../server/services/usage';
+import { recordLotUsage } from '../../server/metering/usage';
 import { buildTestApp, createTestKey, createTestOrganisation, testConfig, type TestApp } from '../support/app';
 import { createTestUser, linkIn, sessionCookieFor, startTestSmtp, TEST_PASSWORD } from '../support/identity';
 
@@ -167,7 +167,7 @@ describe('sessions', () => {
     const idle = await sessionCookieFor(admin, 12);
     const busy = await sessionCookieFor(admin, 12);
     const token = (c: string) => c.slice('lotproof_session='.length);
-    const { hashToken } = await import('../../server/services/secrets');
+    const { hashToken } = await import('../../server/identity/credentials');
     const minutesAgo = (m: number) => new Date(Date.now() - m * 60_000);
     // 31 minutes without a request (the default idle timeout is 30): ended
     await Session.update({ lastSeenAt: minutesAgo(31) }, { where: { tokenHash: hashToken(token(idle)) } });

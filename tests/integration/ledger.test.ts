@@ -9,7 +9,7 @@ import { Webhook } from 'standardwebhooks';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { startJobs, type RunningJobs } from '../../server/jobs';
-import { canonicalJson, canonicalJsonReference } from '../../server/services/canonical';
+import { canonicalJson, canonicalJsonReference } from '../../server/verdicts/canonical';
 import { buildTestApp, createTestKey, createTestOrganisation, type TestApp } from '../support/app';
 import { createProduct, lotBody } from '../support/lots';
 

@@ -118,7 +118,7 @@ describe('a big lot', () => {
     const { mkdtempSync, rmSync, writeFileSync } = await import('node:fs');
     const { join } = await import('node:path');
     const { tmpdir } = await import('node:os');
-    const { ASIDE_MIN_LENGTH, asideWorkerReady, startAsideWorker } = await import('../../server/services/canonical-aside');
+    const { ASIDE_MIN_LENGTH, asideWorkerReady, startAsideWorker } = await import('../../server/verdicts/canonical-aside');
     startAsideWorker();
     for (let i = 0; i < 300 && !asideWorkerReady(); i++) await new Promise((r) => setTimeout(r, 50));
     expect(asideWorkerReady()).toBe(true);

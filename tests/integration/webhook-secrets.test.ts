@@ -3,11 +3,11 @@
 import { randomUUID } from 'node:crypto';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { WebhookEndpoint } from '../../server/models';
-import { isSealed, secretBox } from '../../server/services/secret-box';
+import { isSealed, secretBox } from '../../server/core/secret-box';
 import { randomBytes } from 'node:crypto';
 import { QueryTypes } from 'sequelize';
 import { deliverWebhook, DeliveryFailed } from '../../server/jobs/webhook-delivery';
-import { newWebhookSecret, openWebhookSecret, resealWebhookSecrets, sendTestWebhook } from '../../server/services/webhooks';
+import { newWebhookSecret, openWebhookSecret, resealWebhookSecrets, sendTestWebhook } from '../../server/webhooks/endpoints';
 import { buildTestApp, createTestOrganisation, type TestApp } from '../support/app';
 
 let t: TestApp;

@@ -8,8 +8,8 @@ import { openDatabase, type Database } from '../../server/db/database';
 import type { AppContext } from '../../server/http/context';
 import { createLogger } from '../../server/logger';
 import { Organisation } from '../../server/models';
-import { issueApiKey } from '../../server/services/api-keys';
-import type { Scope } from '../../server/services/principal';
+import { issueApiKey } from '../../server/identity/api-key-store';
+import type { Scope } from '../../server/core/principal';
 
 export function testDatabaseUrl(): string {
   const url = process.env.DATABASE_URL;

@@ -2,9 +2,9 @@
 import { randomUUID } from 'node:crypto';
 import { User } from '../../server/models';
 import { startSmtpFake, type RunningSmtpFake } from '../../server/platform/smtp-fake';
-import type { Role } from '../../server/services/principal';
-import { startSession } from '../../server/services/sessions';
-import { createUser } from '../../server/services/users';
+import type { Role } from '../../server/core/principal';
+import { startSession } from '../../server/identity/sessions';
+import { createUser } from '../../server/identity/users';
 
 export const TEST_PASSWORD = 'a perfectly long test passphrase';
 

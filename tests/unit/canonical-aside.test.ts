@@ -2,8 +2,8 @@
 // bytes the main thread would (RFC 8785's number form, checked against the reference package in
 // canonical-numbers.test.ts), and must step aside whenever it cannot: then the caller writes them.
 import { afterAll, describe, expect, it } from 'vitest';
-import { ASIDE_MIN_LENGTH, asideWorkerReady, startAsideWorker, stopAsideWorker, writeNumberArraysAside } from '../../server/services/canonical-aside';
-import { canonicalJsonBytes, canonicalJsonReference, numberArrayJson } from '../../server/services/canonical';
+import { ASIDE_MIN_LENGTH, asideWorkerReady, startAsideWorker, stopAsideWorker, writeNumberArraysAside } from '../../server/verdicts/canonical-aside';
+import { canonicalJsonBytes, canonicalJsonReference, numberArrayJson } from '../../server/verdicts/canonical';
 
 function rng(seed: number) {
   let s = seed >>> 0;

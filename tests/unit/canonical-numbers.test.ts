@@ -1,6 +1,6 @@
 // The fast writer of number arrays must give exactly JSON.stringify's text (RFC 8785's number form).
 import { describe, expect, it } from 'vitest';
-import { canonicalJson, canonicalJsonBytes, canonicalJsonReference, numberArrayJson } from '../../server/services/canonical';
+import { canonicalJson, canonicalJsonBytes, canonicalJsonReference, numberArrayJson } from '../../server/verdicts/canonical';
 
 function rng(seed: number) {
   let s = seed >>> 0;

@@ -3,7 +3,7 @@
 import { describe, expect, it } from 'vitest';
 import { loadConfig } from '../../server/config';
 import { readMessage } from '../../server/platform/smtp-fake';
-import { hashPassword, hashToken, newToken, TOKEN_PATTERN, verifyPassword } from '../../server/services/secrets';
+import { hashPassword, hashToken, newToken, TOKEN_PATTERN, verifyPassword } from '../../server/identity/credentials';
 
 describe('passwords', () => {
   it('verifies the right password and refuses a wrong one; each hash has its own salt', async () => {

@@ -4,7 +4,7 @@ import { readFileSync, statSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { readOrCreateKeyFile } from '../../server/platform/key-files';
-import { currentSigningKey } from '../../server/services/signing-keys';
+import { currentSigningKey } from '../../server/verdicts/signing-keys';
 import type { Config } from '../../server/config';
 import { useTempDirs } from '../support/temp-dirs';
 

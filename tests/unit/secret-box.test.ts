@@ -5,7 +5,7 @@ import { join } from 'node:path';
 import { randomBytes } from 'node:crypto';
 import { describe, expect, it } from 'vitest';
 import { loadConfig } from '../../server/config';
-import { isSealed, rotateSecretsKeyFile, secretBox } from '../../server/services/secret-box';
+import { isSealed, rotateSecretsKeyFile, secretBox } from '../../server/core/secret-box';
 import { useTempDirs } from '../support/temp-dirs';
 
 const tempDir = useTempDirs('lotproof-box-');

@@ -7,7 +7,7 @@ import { createServer } from 'node:http';
 import type { AddressInfo } from 'node:net';
 import { describe, expect, it } from 'vitest';
 import { postWebhook, publicOnlyLookup, RefusedTarget } from '../../server/jobs/webhook-post';
-import { isPrivateAddress } from '../../server/services/webhooks';
+import { isPrivateAddress } from '../../server/webhooks/endpoints';
 
 describe('isPrivateAddress', () => {
   it('knows the private, shared, loopback, link-local, multicast and reserved ranges', () => {

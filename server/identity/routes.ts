@@ -1,0 +1,130 @@
+// Identity handlers: sessions, users, invitations, password resets, API keys, the audit trail,
+// and the development mailbox. Thin: read the validated request, call one service, shape the reply.
+import type { Request } from 'express';
+import type { AppContext, Handlers } from '../http/context';
+import { NotFoundProblem } from '../http/problem';
+import { clearSessionCookie, setSessionCookie } from './session-cookie.http';
+import type { Actor } from './audit-trail';
+import { listAudit } from './audit-trail';
+import {
+  acceptInvitation,
+  completePasswordReset,
+  createInvitation,
+  inspectInvitation,
+  listInvitations,
+  requestPasswordReset,
+  revokeInvitation,
+} from './invitations';
+import { idempotent } from '../core/idempotency';
+import { idempotencyClaim, pageOf, sendStored } from '../http/replies';
+import { createKey, getKey, listKeys, revokeKey } from './api-keys';
+import { configureMailer, readDevMailbox } from '../core/mailer';
+import type { Principal, Role, Scope } from '../core/principal';
+import { createRateLimits } from '../metering/rate-limits';
+import { describeSession, revokeSession, signIn } from './sessions';
+import { changeRole, listUsers, removeUser } from './users';
+
+function ip(req: Request): string {
+  return req.ip ?? 'unknown';
+}
+
+function actor(req: Request): Actor & { principal: Principal } {
+  return { principal: req.principal!, ip: req.ip ?? null };
+}
+
+export function identityHandlers(ctx: AppContext): Handlers {
+  const { config } = ctx;
+  configureMailer(config.smtp);
+  const limits = createRateLimits(ctx.db.sequelize, config.rateLimits);
+  const links = { publicUrl: config.publicUrl, ttlHours: config.sessions.invitationTtlHours };
+
+  return {
+    signIn: async (req, res) => {
+      const { token, view } = await signIn(
+        { email: req.body.email, password: req.body.password, ip: ip(req) },
+        { ttlHours: config.sessions.ttlHours, limits },
+      );
+      setSessionCookie(res, token, new Date(view.expiresAt), config.publicUrl);
+      res.status(201).json(view);
+    },
+    getSession: async (req, res) => {
+      res.json(await describeSession(req.principal!));
+    },
+    signOut: async (req, res) => {
+      await revokeSession(req.principal!);
+      clearSessionCookie(res, config.publicUrl);
+      res.status(204).end();
+    },
+
+    listUsers: async (req, res) => {
+      res.json({ items: await listUsers(req.principal!.organisationId) });
+    },
+    changeUserRole: async (req, res) => {
+      res.json(await changeRole(actor(req), String(req.params.userId), req.body.role as Role));
+    },
+    removeUser: async (req, res) => {
+      await removeUser(actor(req), String(req.params.userId));
+      res.status(204).end();
+    },
+
+    listInvitations: async (req, res) => {
+      res.json({ items: await listInvitations(req.principal!.organisationId) });
+    },
+    createInvitation: async (req, res) => {
+      // A retry with the same Idempotency-Key gets the first reply and sends no second e-mail.
+      const r = await idempotent(ctx.db.sequelize, idempotencyClaim(req, 'createInvitation'), async () => {
+        const v = await createInvitation(actor(req), { email: req.body.email, role: req.body.role as Role }, links);
+        return { status: 201, value: v, resourceId: v.id };
+      });
+      sendStored(res, r);
+    },
+    revokeInvitation: async (req, res) => {
+      res.json(await revokeInvitation(actor(req), String(req.params.invitationId)));
+    },
+    inspectInvitation: async (req, res) => {
+      res.json(await inspectInvitation(req.body.token));
+    },
+    acceptInvitation: async (req, res) => {
+      res.status(201).json(await acceptInvitation({ token: req.body.token, password: req.body.password, name: req.body.name, ip: ip(req) }));
+    },
+    requestPasswordReset: async (req, res) => {
+      await requestPasswordReset({ email: req.body.email, ip: ip(req) }, { publicUrl: config.publicUrl, ttlMinutes: config.sessions.passwordResetTtlMinutes, limits });
+      res.status(202).end();
+    },
+    completePasswordReset: async (req, res) => {
+      await completePasswordReset({ token: req.body.token, password: req.body.password, ip: ip(req) });
+      res.status(204).end();
+    },
+
+    listApiKeys: async (req, res) => {
+      res.json({ items: await listKeys(req.principal!.organisationId) });
+    },
+    createApiKey: async (req, res) => {
+      const created = await createKey(actor(req), { name: req.body.name, scopes: req.body.scopes as Scope[], expiresAt: req.body.expiresAt });
+      res.setHeader('Cache-Control', 'no-store');
+      res.status(201).json(created);
+    },
+    getApiKey: async (req, res) => {
+      res.json(await getKey(req.principal!.organisationId, String(req.params.keyId)));
+    },
+    revokeApiKey: async (req, res) => {
+      res.json(await revokeKey(actor(req), String(req.params.keyId)));
+    },
+
+    listAuditEvents: async (req, res) => {
+      const q = req.query as Record<string, unknown>;
+      res.json(
+        await listAudit(req.principal!.organisationId, {
+          ...pageOf(q),
+          action: typeof q.action === 'string' ? q.action : undefined,
+        }),
+      );
+    },
+
+    getDevMailbox: (_req, res) => {
+      if (!config.development) throw new NotFoundProblem('No route for GET /v1/dev/mailbox. The API lives under /v1; see /docs.');
+      res.setHeader('Cache-Control', 'no-store');
+      res.json({ items: readDevMailbox() });
+    },
+  };
+}

@@ -1,0 +1,178 @@
+// Reading verdicts: lists with filters, a sort and keyset cursor pagination (newest first by default), one by id, and the
+// re-run of the engine on a stored input. Every query is scoped by the caller's organisation.
+import { QueryTypes, type Sequelize } from 'sequelize';
+import { ENGINE_VERSION, evaluateLot } from '../../shared/engine';
+import { InvalidInput, NotFound } from '../core/errors';
+import { canonicalJson } from './canonical';
+import { decodeCursor, encodeCursor } from '../core/cursor';
+import type { Principal } from '../core/principal';
+import { VIEW_COLUMNS, verdictView, type VerdictRecord, type VerdictRow, type VerdictView } from './verdict-records';
+import type { components } from '../../shared/api/schema';
+
+export interface VerdictFilter {
+  productId?: string;
+  line?: string;
+  decision?: string;
+  lotCode?: string;
+  from?: string;
+  to?: string;
+}
+
+/** SQL conditions and bind values for a filter; `$1` is always the organisation. */
+export function filterSql(organisationId: string, f: VerdictFilter): { where: string; bind: unknown[] } {
+  const bind: unknown[] = [organisationId];
+  const conds = ['organisation_id = $1'];
+  const add = (sql: string, v: unknown) => {
+    bind.push(v);
+    conds.push(sql.replace('?', `$${bind.length}`));
+  };
+  if (f.productId) add('product_id = ?', f.productId);
+  if (f.line !== undefined) add('line = ?', f.line);
+  if (f.decision) add('decision = ?', f.decision);
+  if (f.lotCode) add('lot_code = ?', f.lotCode);
+  if (f.from) add('recorded_at >= ?::timestamptz', f.from);
+  if (f.to) add('recorded_at < ?::timestamptz', f.to);
+  return { where: conds.join(' AND '), bind };
+}
+
+/** The orders `listVerdicts` offers (the OpenAPI `sort` enum): a field, `-` for descending. */
+export const VERDICT_SORTS = ['recordedAt', '-recordedAt', 'lotCode', '-lotCode', 'decision', '-decision', 'packedAt', '-packedAt'] as const;
+export type VerdictSort = (typeof VERDICT_SORTS)[number];
+
+/** The column behind each sort field, the cast its cursor value takes, and whether it may be NULL. */
+const SORT_KEYS: Record<string, { column: string; cast: string; nullable: boolean }> = {
+  recordedAt: { column: 'recorded_at', cast: 'timestamptz', nullable: false },
+  lotCode: { column: 'lot_code', cast: 'text', nullable: false },
+  decision: { column: 'decision', cast: 'text', nullable: false },
+  packedAt: { column: 'packed_at', cast: 'timestamptz', nullable: true },
+};
+
+export function isVerdictSort(v: unknown): v is VerdictSort {
+  return typeof v === 'string' && (VERDICT_SORTS as readonly string[]).includes(v);
+}
+
+const badCursor = () =>
+  new InvalidInput('the cursor is not one this API returned for this sort', [
+    { field: '/cursor', detail: 'not a valid cursor for this sort' },
+  ]);
+
+/**
+ * Cursor of a sorted page: [sort, key present (1/0), key as text, sequence]. The key is the exact
+ * text PostgreSQL gave (timestamps at full precision), so the keyset comparison never rounds.
+ */
+function decodeSortCursor(cursor: string, sort: VerdictSort, cast: string): { key: string | null; sequence: number } {
+  const [s, has, key, seq] = decodeCursor(cursor, 4);
+  if (s !== sort || (has !== 0 && has !== 1) || typeof key !== 'string' || typeof seq !== 'number' || !Number.isSafeInteger(seq)) throw badCursor();
+  // A forged key must never reach PostgreSQL as something it refuses (that would be a 5xx).
+  if (has === 1 && (key.includes('\u0000') || (cast === 'timestamptz' && !isTimestampText(key)))) throw badCursor();
+  return { key: has === 1 ? key : null, sequence: seq };
+}
+
+/** A timestamp as `to_json(timestamptz)` writes it, with every field in range. */
+function isTimestampText(t: string): boolean {
+  const m = /^(\d{4})-(\d{2})-(\d{2})T(\d{2}):(\d{2}):(\d{2})(\.\d{1,6})?([+-])(\d{2}):(\d{2})$/.exec(t);
+  if (!m) return false;
+  const [y, mo, d, h, mi, sec, , , oh, om] = [1, 2, 3, 4, 5, 6, 7, 8, 9, 10].map((i) => Number(m[i]));
+  const daysInMonth = new Date(Date.UTC(y!, mo!, 0)).getUTCDate();
+  return y! >= 1 && mo! >= 1 && mo! <= 12 && d! >= 1 && d! <= daysInMonth && h! < 24 && mi! < 60 && sec! < 60 && oh! <= 15 && om! < 60;
+}
+
+export async function listVerdicts(
+  sequelize: Sequelize,
+  principal: Principal,
+  f: VerdictFilter & { limit: number; cursor?: string; sort?: VerdictSort },
+): Promise<{ items: VerdictView[]; nextCursor: string | null }> {
+  const sort: VerdictSort = f.sort ?? '-recordedAt';
+  const desc = sort.startsWith('-');
+  const { column, cast, nullable } = SORT_KEYS[desc ? sort.slice(1) : sort]!;
+  const { where, bind } = filterSql(principal.organisationId, f);
+  // Keyset pagination on (key, sequence): sequence is unique within an organisation, so ties on
+  // the key keep ledger order and no verdict is skipped or repeated. NULL keys come last.
+  let sql = `SELECT ${VIEW_COLUMNS}, to_json(${column}) #>> '{}' AS sort_key FROM verdicts WHERE ${where}`;
+  if (f.cursor) {
+    const c = decodeSortCursor(f.cursor, sort, cast);
+    const cmp = desc ? '<' : '>';
+    bind.push(c.sequence);
+    const seqParam = `$${bind.length}`;
+    if (c.key === null) {
+      if (!nullable) throw badCursor();
+      sql += ` AND ${column} IS NULL AND sequence ${cmp} ${seqParam}`;
+    } else {
+      bind.push(c.key);
+      const keyParam = `$${bind.length}::${cast}`;
+      const after = `(${column} ${cmp} ${keyParam} OR (${column} = ${keyParam} AND sequence ${cmp} ${seqParam}))`;
+      sql += nullable ? ` AND (${after} OR ${column} IS NULL)` : ` AND ${after}`;
+    }
+  }
+  bind.push(f.limit + 1);
+  const dir = desc ? 'DESC' : 'ASC';
+  sql += ` ORDER BY ${column} ${dir}${nullable ? ' NULLS LAST' : ''}, sequence ${dir} LIMIT $${bind.length}`;
+  const rows = await sequelize.query<VerdictRow & { sort_key: string | null }>(sql, { bind, type: QueryTypes.SELECT });
+  const page = rows.slice(0, f.limit);
+  const last = page[page.length - 1];
+  const nextCursor =
+    rows.length > f.limit && last ? encodeCursor([sort, last.sort_key === null ? 0 : 1, last.sort_key ?? '', Number(last.sequence)]) : null;
+  return { items: page.map(verdictView), nextCursor };
+}
+
+export async function findVerdictRow(
+  sequelize: Sequelize,
+  organisationId: string,
+  by: { id: string } | { seal: string },
+  withRecord = false,
+): Promise<VerdictRow | null> {
+  const [col, val] = 'id' in by ? ['id', by.id] : ['seal', by.seal.toLowerCase()];
+  const rows = await sequelize.query<VerdictRow>(
+    `SELECT ${VIEW_COLUMNS}${withRecord ? ', record' : ''} FROM verdicts WHERE organisation_id = $1 AND ${col} = $2`,
+    { bind: [organisationId, val], type: QueryTypes.SELECT },
+  );
+  return rows[0] ?? null;
+}
+
+export async function getVerdict(sequelize: Sequelize, principal: Principal, id: string): Promise<VerdictView> {
+  const row = await findVerdictRow(sequelize, principal.organisationId, { id });
+  if (!row) throw new NotFound(`no verdict ${id} in your organisation`);
+  return verdictView(row);
+}
+
+/** Where two JSON values differ (JSON pointers, at most `max`). */
+function differences(a: unknown, b: unknown, path = '', out: string[] = [], max = 20): string[] {
+  if (out.length >= max) return out;
+  if (a === b) return out;
+  if (typeof a !== 'object' || typeof b !== 'object' || a === null || b === null || Array.isArray(a) !== Array.isArray(b)) {
+    out.push(path || '/');
+    return out;
+  }
+  const keys = new Set([...Object.keys(a), ...Object.keys(b)]);
+  for (const k of keys) differences((a as Record<string, unknown>)[k], (b as Record<string, unknown>)[k], `${path}/${k}`, out, max);
+  return out;
+}
+
+export async function recomputeVerdict(sequelize: Sequelize, principal: Principal, id: string): Promise<components['schemas']['Recomputation']> {
+  const row = await findVerdictRow(sequelize, principal.organisationId, { id }, true);
+  if (!row) throw new NotFound(`no verdict ${id} in your organisation`);
+  const record = JSON.parse(row.record!) as VerdictRecord;
+  const again = evaluateLot(record.input);
+  const recorded = record.result;
+  if (!again.ok) {
+    return {
+      verdictId: id,
+      matches: false,
+      recordedEngineVersion: record.engine.version,
+      currentEngineVersion: ENGINE_VERSION,
+      recordedDecision: recorded.decision,
+      recomputedDecision: null,
+      differences: [`engine refused the stored input: ${again.error.message} (${again.error.pointer})`],
+    };
+  }
+  const same = canonicalJson(again.verdict) === canonicalJson(recorded);
+  return {
+    verdictId: id,
+    matches: same,
+    recordedEngineVersion: record.engine.version,
+    currentEngineVersion: ENGINE_VERSION,
+    recordedDecision: recorded.decision,
+    recomputedDecision: again.verdict.decision,
+    differences: same ? [] : differences(recorded, again.verdict),
+  };
+}
