@@ -2,7 +2,7 @@
 // Makes sure Debian's postgresql, r-base-core and chromium are present, type-checks everything, starts a cluster in a temp
 // folder on a free port, migrates it, builds the console, runs every vitest project, and removes the
 // cluster afterwards — also when tests fail or the run is interrupted.
-import { spawn } from 'node:child_process';
+import { spawn, type ChildProcess } from 'node:child_process';
 import { mkdtempSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -12,12 +12,26 @@ import { openDatabase } from '../server/db/database';
 import { migrate } from '../server/db/migrate';
 
 let cluster: RunningCluster | null = null;
+let vitest: ChildProcess | null = null;
 const cleanup = () => {
   if (cluster) {
     destroyCluster(cluster);
     cluster = null;
   }
 };
+
+// Installed before anything starts: a Ctrl-C while the cluster starts, migrates or the console builds
+// removes the cluster too; once vitest runs, it gets the signal and the run ends when it does.
+for (const sig of ['SIGINT', 'SIGTERM'] as const) {
+  process.on(sig, () => {
+    if (vitest) {
+      vitest.kill(sig);
+    } else {
+      cleanup();
+      process.exit(1);
+    }
+  });
+}
 
 function typecheck(): Promise<number> {
   const child = spawn('npm', ['run', '--silent', 'typecheck'], { stdio: 'inherit' });
@@ -31,6 +45,7 @@ async function main(): Promise<number> {
     console.error('Type check failed (npm run typecheck).');
     return 1;
   }
+  // In the temp folder; when the postgres user cannot reach that, startCluster puts it in a stand-in.
   const dir = mkdtempSync(join(tmpdir(), 'lotproof-test-pg-'));
   cluster = startCluster({ dir, port: await freePort(), database: 'lotproof_test' });
   const db = openDatabase(cluster.url);
@@ -45,11 +60,7 @@ async function main(): Promise<number> {
     stdio: 'inherit',
     env: { ...process.env, DATABASE_URL: cluster.url, LOTPROOF_VALIDATE_RESPONSES: 'true', NODE_ENV: 'test', LOG_LEVEL: 'silent' },
   });
-  for (const sig of ['SIGINT', 'SIGTERM'] as const) {
-    process.on(sig, () => {
-      child.kill(sig);
-    });
-  }
+  vitest = child;
   return new Promise((resolve) => child.on('exit', (code, signal) => resolve(code ?? (signal ? 1 : 0))));
 }
 

@@ -1,83 +1,120 @@
 // `npm start` with its embedded default: a local cluster in the data folder, API + docs + console on
-// one port; SIGINT (Ctrl-C) stops the server and the cluster; a second run reuses the cluster.
-import { spawn, type ChildProcess } from 'node:child_process';
-import { chmodSync, existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
+// one port; SIGINT (Ctrl-C) stops the server and the cluster, at any moment of the start-up too; a
+// second run reuses the cluster, also when the first was killed with -9 and left PostgreSQL running.
+import { chmodSync, existsSync, mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { freePort } from '../../server/platform/embedded-postgres';
+import { postgresServing, postmasterPid, processAlive, startProduct, type StartedProduct } from '../support/start-process';
 
-const dataDir = mkdtempSync(join(tmpdir(), 'lotproof-start-'));
-chmodSync(dataDir, 0o755); // like a checkout's .data folder: the postgres user must be able to enter it
-let child: ChildProcess | null = null;
+const dataDirs: string[] = [];
+const started: StartedProduct[] = [];
 
-function processAlive(pid: number): boolean {
-  try {
-    process.kill(pid, 0);
-    return true;
-  } catch {
-    return false;
-  }
+/** A data folder like a checkout's .data: the postgres user can enter it, so the cluster is <dataDir>/postgres. */
+function newDataDir(): string {
+  const dir = mkdtempSync(join(tmpdir(), 'lotproof-start-'));
+  chmodSync(dir, 0o755);
+  dataDirs.push(dir);
+  return dir;
 }
 
-async function startProduct(port: number, pgPort: number): Promise<{ proc: ChildProcess; output: () => string }> {
-  const env: NodeJS.ProcessEnv = { ...process.env, PORT: String(port), LOTPROOF_PG_PORT: String(pgPort), LOTPROOF_DATA_DIR: dataDir, NODE_ENV: 'development', LOG_LEVEL: 'warn' };
-  delete env.DATABASE_URL;
-  delete env.LOTPROOF_VALIDATE_RESPONSES;
-  // Its own process group, so that Ctrl-C can be sent to the group as a terminal does.
-  const proc = spawn('npx', ['tsx', 'server/bin/start.ts'], { env, stdio: ['ignore', 'pipe', 'pipe'], detached: true });
-  let out = '';
-  proc.stdout!.on('data', (d) => (out += d));
-  proc.stderr!.on('data', (d) => (out += d));
-  const deadline = Date.now() + 90_000;
-  while (!out.includes('Press Ctrl-C to stop.')) {
-    if (proc.exitCode !== null) throw new Error(`start exited early:\n${out}`);
-    if (Date.now() > deadline) throw new Error(`start did not come up:\n${out}`);
-    await new Promise((r) => setTimeout(r, 200));
-  }
-  return { proc, output: () => out };
+async function product(dataDir: string, port: number, pgPort: number): Promise<StartedProduct> {
+  const p = startProduct(process.cwd(), { PORT: String(port), LOTPROOF_PG_PORT: String(pgPort), LOTPROOF_DATA_DIR: dataDir });
+  started.push(p);
+  return p;
 }
 
-async function stopWithCtrlC(proc: ChildProcess): Promise<void> {
-  // npx → node: signal the whole group, as a terminal's Ctrl-C does.
-  const exited = new Promise<void>((r) => proc.once('exit', () => r()));
-  process.kill(-proc.pid!, 'SIGINT');
-  await exited;
+/** After Ctrl-C: waits for the command to finish stopping, then expects no PostgreSQL of the cluster left. */
+async function expectStoppedClean(p: StartedProduct, clusterDir: string, moment: string): Promise<void> {
+  p.ctrlC();
+  await p.gone();
+  expect(postgresServing(clusterDir), `${moment}: PostgreSQL left running\n${p.output()}`).toEqual([]);
+  expect(existsSync(join(clusterDir, 'data', 'postmaster.pid')), `${moment}: postmaster.pid left`).toBe(false);
 }
 
 afterAll(() => {
-  try {
-    if (child) process.kill(-child.pid!, 'SIGKILL');
-  } catch {
-    // the group has already gone
-  }
-  rmSync(dataDir, { recursive: true, force: true });
+  // A failed test may have left its cluster running: stop it before removing its folder.
+  for (const dir of dataDirs) for (const pid of postgresServing(join(dir, 'postgres'))) process.kill(pid, 'SIGQUIT');
+  for (const p of started) p.kill9();
+  for (const dir of dataDirs) rmSync(dir, { recursive: true, force: true });
 });
 
 describe('the start command', () => {
   it('serves console, docs and readiness on one port, stops its cluster on Ctrl-C, and starts again', async () => {
+    const dataDir = newDataDir();
     const port = await freePort();
     const pgPort = await freePort();
     for (const run of [1, 2]) {
-      const { proc, output } = await startProduct(port, pgPort);
-      child = proc;
+      const p = await product(dataDir, port, pgPort);
+      await p.waitFor('Press Ctrl-C to stop.');
       const base = `http://127.0.0.1:${port}`;
-      expect(output()).toContain(`${base}/docs`);
+      expect(p.output()).toContain(`${base}/docs`);
       expect((await fetch(`${base}/readyz`)).status).toBe(200);
       expect((await fetch(`${base}/docs/`)).status).toBe(200);
       const home = await fetch(`${base}/`);
       expect(home.status).toBe(200);
       expect(await home.text()).toContain('<div id="app"></div>');
-      const pidFile = join(dataDir, 'postgres', 'data', 'postmaster.pid');
-      expect(existsSync(pidFile), `run ${run}: cluster running`).toBe(true);
-      const postmaster = Number(readFileSync(pidFile, 'utf8').split('\n')[0]);
-      expect(processAlive(postmaster)).toBe(true);
-      await stopWithCtrlC(proc);
-      // npx exits at once on Ctrl-C; the server finishes its shutdown (HTTP, then the cluster) just after.
-      const deadline = Date.now() + 20_000;
-      while (processAlive(postmaster) && Date.now() < deadline) await new Promise((r) => setTimeout(r, 100));
-      expect(processAlive(postmaster), `run ${run}: PostgreSQL stopped`).toBe(false);
-      expect(existsSync(pidFile)).toBe(false);
+      // The data folder is reachable by postgres, so the cluster stays where it always was.
+      const postmaster = postmasterPid(join(dataDir, 'postgres'));
+      expect(postmaster, `run ${run}: cluster running in <dataDir>/postgres`).not.toBeNull();
+      expect(processAlive(postmaster!)).toBe(true);
+      await expectStoppedClean(p, join(dataDir, 'postgres'), `run ${run}`);
+      expect(processAlive(postmaster!), `run ${run}: PostgreSQL stopped`).toBe(false);
     }
+  });
+
+  it('stops the cluster on Ctrl-C right after /readyz answers and while the cluster starts, and on a SIGTERM to the server alone', async () => {
+    const dataDir = newDataDir();
+    const clusterDir = join(dataDir, 'postgres');
+    const port = await freePort();
+    const pgPort = await freePort();
+    const readyz = `http://127.0.0.1:${port}/readyz`;
+
+    // Right after /readyz first answers: the demo is still being seeded.
+    let p = await product(dataDir, port, pgPort);
+    await p.waitForOk(readyz);
+    await expectStoppedClean(p, clusterDir, 'Ctrl-C right after /readyz');
+
+    // While the server of the (existing) cluster starts: nothing of the API is up yet.
+    p = await product(dataDir, port, pgPort);
+    await p.waitFor(`Starting PostgreSQL on 127.0.0.1:${pgPort}`);
+    await expectStoppedClean(p, clusterDir, 'Ctrl-C while the cluster starts');
+    expect(p.output()).not.toContain('Lotproof is running');
+
+    // SIGTERM to the server process alone: PostgreSQL gets no signal of its own, so the server must stop it.
+    p = await product(dataDir, port, pgPort);
+    await p.waitForOk(readyz);
+    p.signalServer('SIGTERM');
+    await p.gone();
+    expect(postgresServing(clusterDir), `SIGTERM right after /readyz: PostgreSQL left running\n${p.output()}`).toEqual([]);
+  });
+
+  it('after a kill -9 of the start command, the next start takes over the cluster left running and stops it on Ctrl-C', async () => {
+    const dataDir = newDataDir();
+    const clusterDir = join(dataDir, 'postgres');
+    const port = await freePort();
+    const pgPort = await freePort();
+
+    const first = await product(dataDir, port, pgPort);
+    await first.waitFor('Press Ctrl-C to stop.');
+    const postmaster = postmasterPid(clusterDir)!;
+    expect(first.kill9Node().length, 'npx, tsx and the server killed').toBeGreaterThanOrEqual(3);
+    await new Promise((r) => setTimeout(r, 500));
+    // Only Node.js was killed: PostgreSQL runs on, orphaned, holding the port. That is the case to handle.
+    expect(processAlive(postmaster), 'the cluster survived the kill').toBe(true);
+    expect(postgresServing(clusterDir)).toEqual([postmaster]);
+
+    const second = await product(dataDir, port, pgPort);
+    await second.waitFor('Press Ctrl-C to stop.');
+    expect(second.output()).toContain(`PostgreSQL left running in ${join(clusterDir, 'data')} by an earlier start (pid ${postmaster}`);
+    expect(second.output()).not.toContain('is taken by another program');
+    expect(second.output()).not.toContain('Creating a PostgreSQL cluster');
+    expect((await fetch(`http://127.0.0.1:${port}/readyz`)).status).toBe(200);
+    expect(processAlive(postmaster), 'the orphan was stopped').toBe(false);
+    const restarted = postmasterPid(clusterDir)!;
+    expect(postgresServing(clusterDir)).toEqual([restarted]);
+    await expectStoppedClean(second, clusterDir, 'Ctrl-C of the second start');
+    expect(processAlive(restarted)).toBe(false);
   });
 });
