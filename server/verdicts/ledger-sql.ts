@@ -4,7 +4,7 @@
 // connection (see DEVELOPERS.md, "Persistence"): one transaction of three round trips per batch.
 import { priorRepliesUnderLock, STORED_REPLY_COLUMNS, type PriorReply } from '../core/idempotency';
 import type { PgClient } from '../db/raw';
-import type { EndpointSubscription } from '../webhooks/notifications';
+import type { EndpointSubscription } from './notifications';
 import type { VerdictRow } from './verdict-records';
 
 /** Advisory-lock class of the chains: the lock is (LOCK_CLASS, hashtext(organisation id)). */

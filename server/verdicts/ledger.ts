@@ -15,7 +15,7 @@ import type { Config } from '../config';
 import { Conflict } from '../core/errors';
 import { keyReused, type IdempotencyClaim, storedReplyRow } from '../core/idempotency';
 import { withConnection } from '../db/raw';
-import { alertEmailFor, deliveriesFor } from '../webhooks/notifications';
+import { alertEmailFor, deliveriesFor } from './notifications';
 import { beginAndReadUnderLock, deliveryValues, emailValues, insertAndCommit, verdictValues, type BatchRows, type ReadUnderLock } from './ledger-sql';
 import { currentSigningKey, publishSigningKey, signSeal, type SigningKey } from './signing-keys';
 import { assembleRecord, verdictView, type ChainPosition, type VerdictRow, type VerdictView } from './verdict-records';

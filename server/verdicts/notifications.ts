@@ -2,7 +2,7 @@
 // an alert e-mail to the product's recipients when the lot is nonconforming. Built inside the
 // ledger transaction (as outbox rows); delivered by the jobs in server/jobs.
 import { randomUUID } from 'node:crypto';
-import type { VerdictView } from '../verdicts/verdict-records';
+import type { VerdictView } from './verdict-records';
 
 export const WEBHOOK_EVENTS = ['verdict.created', 'verdict.nonconforming', 'verdict.second-sample-required'] as const;
 export type WebhookEventType = (typeof WEBHOOK_EVENTS)[number];

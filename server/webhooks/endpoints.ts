@@ -10,7 +10,7 @@ import { InvalidInput, NotFound } from '../core/errors';
 import { WebhookEndpoint } from './models';
 import { decodeCursor, encodeCursor } from '../core/cursor';
 import { ledgerEvents } from '../verdicts/ledger';
-import { TEST_EVENT } from './notifications';
+import { TEST_EVENT } from '../verdicts/notifications';
 import type { Principal } from '../core/principal';
 import { isSealed, type SecretBox } from '../core/secret-box';
 import { forEachStoredReply } from '../core/idempotency';

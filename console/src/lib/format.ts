@@ -2,7 +2,6 @@
 export { formatNumber, formatPValue, formatQuantity } from '../../../shared/engine/format';
 
 const dateTime = new Intl.DateTimeFormat(undefined, { dateStyle: 'medium', timeStyle: 'short' });
-const dateOnly = new Intl.DateTimeFormat(undefined, { dateStyle: 'medium' });
 
 export function formatDateTime(iso: string | null | undefined): string {
   if (!iso) return '—';
@@ -10,21 +9,8 @@ export function formatDateTime(iso: string | null | undefined): string {
   return Number.isNaN(d.getTime()) ? iso : dateTime.format(d);
 }
 
-export function formatDate(iso: string | null | undefined): string {
-  if (!iso) return '—';
-  const d = new Date(iso);
-  return Number.isNaN(d.getTime()) ? iso : dateOnly.format(d);
-}
-
 /** A long hex seal shortened for tables: first 10 and last 6 characters. */
 export function shortSeal(seal: string | null | undefined): string {
   if (!seal) return '—';
   return seal.length > 20 ? `${seal.slice(0, 10)}…${seal.slice(-6)}` : seal;
-}
-
-/** yyyy-mm-dd of a date in local time (for <input type="date">). */
-export function isoDay(d: Date): string {
-  const m = String(d.getMonth() + 1).padStart(2, '0');
-  const day = String(d.getDate()).padStart(2, '0');
-  return `${d.getFullYear()}-${m}-${day}`;
 }
