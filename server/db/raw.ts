@@ -3,7 +3,7 @@
 // a named statement once and then only binds and executes it, and no model instances are built.
 // Persistence only. The one declaration of the raw client's types is here.
 import type { Sequelize } from 'sequelize';
-import { perKeyBatches } from './per-key-batches';
+import { perKeyBatches } from './per-key-batches.speedup';
 
 /** A query's result as node-postgres gives it. */
 export interface PgResult {

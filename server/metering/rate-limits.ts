@@ -3,7 +3,7 @@
 // credential, and failed sign-ins per account and per IP.
 import { RateLimiterPostgres, RateLimiterRes } from 'rate-limiter-flexible';
 import type { Sequelize } from 'sequelize';
-import { perKeyBatches } from '../db/per-key-batches';
+import { perKeyBatches } from '../db/per-key-batches.speedup';
 import type { RateLimitConfig } from '../config';
 import { TooMany } from '../core/errors';
 import type { Principal } from '../core/principal';

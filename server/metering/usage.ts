@@ -1,9 +1,10 @@
 // Usage metering: per credential and per UTC day, the requests made, the lots verified and the
-// measurements processed. Console sessions are counted together under the nil key id.
+// measurements processed. Console sessions are counted together under the nil key id. The counts
+// are gathered in memory and written about once a second (usage-buffer.speedup.ts).
 import { QueryTypes } from 'sequelize';
-import { onDatabaseClose } from '../db/database';
 import { ApiKey } from '../identity/api-key-model';
 import { UsageDay } from './models';
+import { countUsage, flushUsage } from './usage-buffer.speedup';
 import { InvalidInput } from '../core/errors';
 import type { Principal } from '../core/principal';
 
@@ -19,113 +20,15 @@ export function utcDay(at: Date): string {
   return at.toISOString().slice(0, 10);
 }
 
-// Counts are gathered in memory per process and written in one multi-row upsert about once a second
-// (and before every read of the usage, and when the database is closed). Writing them on every
-// request put every request of a key behind the same hot row, one commit at a time: that, not the
-// ledger, capped lots per second. The price: a crash (not a clean stop) can lose the last second of
-// counts. Usage is metering, not a record anyone relies on for a verdict, so that is acceptable;
-// verdicts and the ledger are committed durably on their own path.
-interface Counts {
-  organisationId: string;
-  keyId: string;
-  day: string;
-  requests: number;
-  lots: number;
-  measurements: number;
-}
-
-const FLUSH_AFTER_MS = 1_000;
-let pending = new Map<string, Counts>();
-let timer: NodeJS.Timeout | null = null;
-let flushing: Promise<void> = Promise.resolve();
-
-function add(principal: Principal, counts: { requests?: number; lots?: number; measurements?: number }, at: Date): void {
-  const key = keyOf(principal);
-  const day = utcDay(at);
-  const id = `${principal.organisationId}\n${key}\n${day}`;
-  let c = pending.get(id);
-  if (!c) pending.set(id, (c = { organisationId: principal.organisationId, keyId: key, day, requests: 0, lots: 0, measurements: 0 }));
-  c.requests += counts.requests ?? 0;
-  c.lots += counts.lots ?? 0;
-  c.measurements += counts.measurements ?? 0;
-  scheduleFlush();
-}
-
-function scheduleFlush(): void {
-  if (timer) return;
-  timer = setTimeout(() => void flushUsage().catch(() => {}), FLUSH_AFTER_MS);
-  timer.unref();
-}
-
-async function write(batch: Map<string, Counts>): Promise<void> {
-  // Sorted, so two processes flushing the same rows take their locks in the same order.
-  const rows = [...batch.entries()].sort((a, b) => (a[0] < b[0] ? -1 : 1)).map(([, c]) => c);
-  await UsageDay.sequelize!.query(
-    `INSERT INTO usage_daily (organisation_id, key_id, day, requests, lots, measurements)
-     SELECT u.* FROM unnest($1::uuid[], $2::uuid[], $3::date[], $4::bigint[], $5::bigint[], $6::bigint[]) AS u(o, k, d, r, l, m)
-     JOIN organisations org ON org.id = u.o -- an organisation removed meanwhile takes its counts with it
-     ON CONFLICT (organisation_id, day, key_id) DO UPDATE SET
-       requests = usage_daily.requests + EXCLUDED.requests,
-       lots = usage_daily.lots + EXCLUDED.lots,
-       measurements = usage_daily.measurements + EXCLUDED.measurements`,
-    {
-      bind: [
-        rows.map((r) => r.organisationId),
-        rows.map((r) => r.keyId),
-        rows.map((r) => r.day),
-        rows.map((r) => r.requests),
-        rows.map((r) => r.lots),
-        rows.map((r) => r.measurements),
-      ],
-      type: QueryTypes.INSERT,
-    },
-  );
-}
-
-/**
- * Writes the counts gathered so far in this process (one statement). Reads of the usage call it
- * first, so a caller sees its own requests; on failure the counts are kept for the next flush.
- */
-export function flushUsage(): Promise<void> {
-  const run = async () => {
-    if (timer) clearTimeout(timer);
-    timer = null;
-    if (pending.size === 0) return;
-    const batch = pending;
-    pending = new Map();
-    try {
-      await write(batch);
-    } catch (err) {
-      for (const [id, c] of batch) {
-        const now = pending.get(id);
-        if (!now) pending.set(id, c);
-        else {
-          now.requests += c.requests;
-          now.lots += c.lots;
-          now.measurements += c.measurements;
-        }
-      }
-      scheduleFlush();
-      throw err;
-    }
-  };
-  // One flush at a time, in order: a read waits for the flush before it, then its own.
-  const next = flushing.catch(() => {}).then(run);
-  flushing = next;
-  return next;
-}
-
-onDatabaseClose(() => flushUsage().catch(() => {}));
-
 /** Counts one verified lot and its measurements for the principal's key (or the console) and organisation. */
 export async function recordLotUsage(principal: Principal, measurements: number, at = new Date()): Promise<void> {
   if (!Number.isInteger(measurements) || measurements < 0) throw new RangeError('measurements must be a non-negative integer');
-  add(principal, { lots: 1, measurements }, at);
+  countUsage(principal.organisationId, keyOf(principal), utcDay(at), { lots: 1, measurements });
 }
 
 /** Counts one API request (called by the HTTP layer for every authenticated request). */
 export async function recordRequestUsage(principal: Principal, at = new Date()): Promise<void> {
-  add(principal, { requests: 1 }, at);
+  countUsage(principal.organisationId, keyOf(principal), utcDay(at), { requests: 1 });
 }
 
 export interface UsageRow {

@@ -90,20 +90,6 @@ function values(rows: unknown[][], columns: Columns, bind: unknown[]): string {
   return rows.map((r) => `(${r.map((v, i) => (bind.push(v), `$${bind.length}${columns[i]![1]}`)).join(', ')})`).join(', ');
 }
 
-// Speed-up: the insert's text depends only on the batch's shape (how many rows of each table), so
-// each shape gets a named statement: every connection parses and plans it once, then only binds.
-const statementNames = new Map<string, string>();
-const MAX_NAMED_STATEMENTS = 200;
-const MAX_NAMED_BINDS = 8_000;
-function statementName(sql: string): string | null {
-  let name = statementNames.get(sql);
-  if (name) return name;
-  if (statementNames.size >= MAX_NAMED_STATEMENTS || sql.length > MAX_NAMED_BINDS * 12) return null;
-  name = `lotproof_ledger_${statementNames.size + 1}`;
-  statementNames.set(sql, name);
-  return name;
-}
-
 /**
  * Queues the batch's inserts and COMMIT on the connection: as few statements as the bind limit
  * allows (usually one), the verdicts first, then the rows that reference them, as data-modifying
@@ -128,8 +114,7 @@ export async function insertAndCommit(conn: PgClient, rows: BatchRows): Promise<
   const sent = statements.map((st) => {
     const [last, ...before] = [...st.parts].reverse();
     const sql = before.length ? `WITH ${before.reverse().map((p, i) => `w${i} AS (${p})`).join(', ')} ${last}` : last!;
-    const name = statementName(sql);
-    return name ? conn.query({ name, text: sql, values: st.bind }) : conn.query(sql, st.bind);
+    return conn.query(sql, st.bind);
   });
   const committed = conn.query('COMMIT');
   const settled = await Promise.allSettled([...sent, committed]);

@@ -11,7 +11,6 @@ import { Refused, TooLarge } from '../core/errors';
 import { findPrior, replayOrRefuse, type IdempotencyClaim } from '../core/idempotency';
 import type { Principal } from '../core/principal';
 import { recordLotUsage } from '../metering/usage';
-import { writeNumberArraysAside } from './canonical-aside';
 import { appendVerdict, type AppendOutcome } from './ledger';
 import { firstSampleLot, productField, productForLot } from './lot-product';
 import { loadFirstSample, secondSampleLot } from './second-sample';
@@ -54,8 +53,6 @@ export async function submitLot(
   const { spec, lot, lotCode } = first ? secondSampleLot(first, sub) : firstSampleLot(product, sub);
 
   const input: LotInput = { product: spec, lot };
-  // A big lot's numbers are written as canonical JSON on a worker thread while the engine runs here.
-  const aside = writeNumberArraysAside([lot.measurements, lot.tares, lot.previousSample, lot.previousTares]);
   const judged = evaluateLot(input);
   if (!judged.ok) throw engineFailure(judged.error, productField(sub, first));
 
@@ -74,7 +71,6 @@ export async function submitLot(
       result: judged.verdict,
     },
     claim,
-    await aside,
   );
   const outcome = await appendVerdict(sequelize, config, pending);
   if (outcome.kind === 'created') await recordLotUsage(principal, lot.measurements.length).catch(() => {});

@@ -5,7 +5,6 @@ import type { IdempotencyClaim } from '../core/idempotency';
 import type { PendingVerdict } from './ledger';
 import type { LotProduct } from './lot-product';
 import type { FirstSample } from './second-sample';
-import type { KnownArrays } from './canonical';
 import { canonicalContentParts, RECORD_FORMAT, type RecordContent, type VerdictRecord } from './verdict-records';
 
 export interface JudgedLot {
@@ -23,8 +22,8 @@ export interface JudgedLot {
   result: EngineVerdict;
 }
 
-/** The verdict ready to be sealed; `known` holds canonical bytes of big arrays written aside. */
-export function assembleVerdict(j: JudgedLot, claim: IdempotencyClaim | null, known?: KnownArrays): PendingVerdict {
+/** The verdict ready to be sealed. */
+export function assembleVerdict(j: JudgedLot, claim: IdempotencyClaim | null): PendingVerdict {
   const { input, result, product, first } = j;
   const { lot } = input;
   const content: RecordContent = {
@@ -42,7 +41,7 @@ export function assembleVerdict(j: JudgedLot, claim: IdempotencyClaim | null, kn
   return {
     verdictId: j.verdictId,
     organisationId: j.organisationId,
-    parts: canonicalContentParts(content, known),
+    parts: canonicalContentParts(content),
     row: {
       id: j.verdictId,
       organisation_id: j.organisationId,

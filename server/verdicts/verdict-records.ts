@@ -3,7 +3,7 @@
 // export all agree.
 import type { LotInput, Verdict as EngineVerdict } from '../../shared/engine';
 import type { components } from '../../shared/api/schema';
-import { canonicalJson, canonicalJsonBytes, joinPieces, type KnownArrays } from './canonical';
+import { canonicalJson, canonicalJsonBytes, joinPieces } from './canonical';
 
 export type VerdictView = components['schemas']['Verdict'];
 export type SealedDocument = components['schemas']['SealedDocument'];
@@ -48,11 +48,10 @@ export interface ChainPosition {
 /**
  * Canonical JSON (UTF-8 bytes) of every content field, computed once outside the chain lock;
  * `assembleRecord` adds the chain fields under the lock without re-serialising a large lot.
- * `known`: number arrays of the content already written (see canonical-aside.ts).
  */
-export function canonicalContentParts(content: RecordContent, known?: KnownArrays): Map<string, Buffer> {
+export function canonicalContentParts(content: RecordContent): Map<string, Buffer> {
   const parts = new Map<string, Buffer>();
-  for (const [k, v] of Object.entries(content)) parts.set(k, canonicalJsonBytes(v, known));
+  for (const [k, v] of Object.entries(content)) parts.set(k, canonicalJsonBytes(v));
   return parts;
 }
 

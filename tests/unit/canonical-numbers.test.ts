@@ -1,6 +1,7 @@
 // The fast writer of number arrays must give exactly JSON.stringify's text (RFC 8785's number form).
 import { describe, expect, it } from 'vitest';
-import { canonicalJson, canonicalJsonBytes, canonicalJsonReference, numberArrayJson } from '../../server/verdicts/canonical';
+import { canonicalJson, canonicalJsonBytes, canonicalJsonReference } from '../../server/verdicts/canonical';
+import { numberArrayJson } from '../../server/verdicts/canonical-numbers.speedup';
 
 function rng(seed: number) {
   let s = seed >>> 0;

@@ -1,7 +1,7 @@
 // perKeyBatches: one round trip per key at a time, and a caller is never settled by a round trip
 // that was already on its way when it arrived.
 import { describe, expect, it } from 'vitest';
-import { perKeyBatches } from '../../server/db/per-key-batches';
+import { perKeyBatches } from '../../server/db/per-key-batches.speedup';
 
 function deferred<T>() {
   let resolve!: (v: T) => void;
