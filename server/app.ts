@@ -12,10 +12,10 @@ import swaggerUi from 'swagger-ui-express';
 import * as OpenApiValidator from 'express-openapi-validator';
 import { loadApiDocument, operationsOf } from '../openapi/load';
 import { authenticate, authorize } from './http/access';
+import { clientIp } from './http/client-ip';
 import { createMeter } from './metering/request-meter.http';
-import { fixedHeaders } from './http/fixed-headers';
 import { inputGuards, storableFormats } from './http/input-guards';
-import { memoiseValidatorRouteRegexps } from './http/route-regexp-cache';
+import { readBody } from './http/request-body';
 import { registerAuthentication } from './identity/authentication.http';
 import { IDLE_MINUTES_LOCAL } from './identity/session-cookie.http';
 import type { AppContext } from './http/context';
@@ -38,9 +38,15 @@ export function createApp(ctx: AppContext): Express {
   const handlers = handlersFor(ctx, operations);
 
   const app = express();
+  // Paths are matched as the document writes them: /V1/session or /v1/me/ is no route (a 404
+  // problem), so no request reaches a handler past what API_PATH selects (authentication, rate
+  // limits, validation, input guards). Set before the first route: the router reads them once.
+  app.set('case sensitive routing', true);
+  app.set('strict routing', true);
   app.disable('x-powered-by');
   app.set('trust proxy', ctx.config.trustProxy);
   app.set('query parser', 'extended');
+  app.use(clientIp);
 
   // One line per finished request with pino-http: request id, method, path, remote address, status,
   // duration. Only what is safe to keep: no headers (Authorization, Cookie), no bodies, no query strings.
@@ -71,7 +77,7 @@ export function createApp(ctx: AppContext): Express {
     next();
   });
   app.use(
-    fixedHeaders(helmet({
+    helmet({
       contentSecurityPolicy: {
         directives: {
           'script-src': ["'self'"],
@@ -80,7 +86,7 @@ export function createApp(ctx: AppContext): Express {
         },
       },
       crossOriginEmbedderPolicy: false,
-    })),
+    }),
   );
 
   // The document itself and the interactive docs (Swagger UI's assets are served from node_modules).
@@ -113,14 +119,13 @@ export function createApp(ctx: AppContext): Express {
   // without a valid credential (or on an undeclared path) makes the server read or parse a body, and
   // for a large lot the credential check runs while the body is still arriving.
   //
-  // The raw bytes of a JSON body stay on the request (a reference, not a copy): an Idempotency-Key
+  // Each operation reads its body its own way (http/request-body.ts): never compressed, within its
+  // limit (small but for lots) and its time, a JSON body checked for UTF-8 and nesting before it is
+  // parsed. The raw bytes stay on the request (a reference, not a copy): an Idempotency-Key
   // fingerprints the body as sent rather than serialising a parsed million-value lot again.
-  const jsonBody = express.json({ limit, type: ['application/json', 'application/*+json'], verify: (req, _res, buf) => void ((req as express.Request).rawBody = buf) });
-  const textBody = express.text({ limit, type: ['text/csv', 'text/plain'] });
   for (const op of operations) {
-    app[op.method](expressPath(op.path), authorize(op.access, op.operationId), jsonBody, textBody);
+    app[op.method](expressPath(op.path), authorize(op.access, op.operationId), readBody(op.operationId, ctx.config));
   }
-  memoiseValidatorRouteRegexps();
   app.use(
     OpenApiValidator.middleware({
       apiSpec: doc as any,
@@ -143,7 +148,8 @@ export function createApp(ctx: AppContext): Express {
   // The console: built by Vite into dist/console, served from the same origin.
   if (existsSync(join(CONSOLE_DIST, 'index.html'))) {
     app.use(express.static(CONSOLE_DIST, { index: false, maxAge: '1h' }));
-    app.get(/^(?!\/(v1|docs|healthz|readyz|\.well-known)(\/|$)).*/, (_req, res) => {
+    // (an API path in another case is no console route either: /V1/me is a 404 problem)
+    app.get(/^(?!\/(v1|docs|healthz|readyz|\.well-known)(\/|$)).*/i, (_req, res) => {
       res.sendFile(join(CONSOLE_DIST, 'index.html'));
     });
   }

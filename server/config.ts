@@ -11,14 +11,20 @@ export interface Config {
   databaseUrl: string | null;
   /** Port of the embedded cluster (only used when databaseUrl is null). */
   embeddedPgPort: number;
+  /** API processes `npm start` runs on the one port (node:cluster); 1 serves from the start process itself. */
+  processes: number;
   /** Folder for local state: the embedded cluster, the signing and secrets keys, demo credentials. */
   dataDir: string;
   /** AES-256 key for secrets stored encrypted (LOTPROOF_SECRETS_KEY); null: <dataDir>/secrets-key. */
   secretsKey: Buffer | null;
   /** Keys before it (LOTPROOF_SECRETS_KEY_PREVIOUS, comma-separated): they still open, never seal. */
   secretsKeysPrevious: Buffer[];
-  /** Largest accepted request body, in bytes (JSON and CSV). */
+  /** Largest accepted request body, in bytes (JSON and CSV): the limit of the operations that take lots (server/http/request-body.ts). */
   bodyLimitBytes: number;
+  /** Largest body of every other operation (anonymous, identity, products, webhooks), in bytes; at most bodyLimitBytes. */
+  smallBodyLimitBytes: number;
+  /** The HTTP server's own limits against slow and many clients. */
+  http: HttpServerConfig;
   /** Public base URL used in links (e-mails, docs "servers"). */
   publicUrl: string;
   /**
@@ -30,7 +36,10 @@ export interface Config {
   logLevel: string;
   /** Seed the invented demo packer on start. */
   seedDemo: boolean;
-  /** True in development and tests: development-only pages (e.g. the captured mailbox) are on. */
+  /**
+   * Development mode, only when asked for (see developmentMode): the captured mailbox (to loopback
+   * clients of a server listening on loopback), the local SMTP fake, webhooks to private addresses.
+   */
   development: boolean;
   /** Check every response against the OpenAPI document too (on in tests). */
   validateResponses: boolean;
@@ -42,6 +51,20 @@ export interface Config {
   rateLimits: RateLimitConfig;
   /** Verdict sealing, the ledger and notifications. */
   verdicts: VerdictConfig;
+}
+
+export interface HttpServerConfig {
+  /** Time for a request's line and headers to arrive, from its first byte (LOTPROOF_HEADERS_TIMEOUT_MS). */
+  headersTimeoutMs: number;
+  /**
+   * The slowest upload accepted, in bytes per second (LOTPROOF_MIN_BODY_RATE_KB): a request must
+   * arrive within the headers timeout plus its operation's body limit at this rate.
+   */
+  minBodyBytesPerSecond: number;
+  /** How long an idle keep-alive connection stays open (LOTPROOF_KEEP_ALIVE_TIMEOUT_MS). */
+  keepAliveTimeoutMs: number;
+  /** Open connections one process accepts; beyond them a new connection is closed at once (LOTPROOF_MAX_CONNECTIONS). */
+  maxConnections: number;
 }
 
 export interface VerdictConfig {
@@ -168,23 +191,49 @@ function secretsKeyOf(raw: string | undefined, name: string): Buffer | null {
   return raw ? decodeSecretsKey(raw, name) : null;
 }
 
-export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
+/** How to turn development mode on, for messages that say it is off. */
+export const DEVELOPMENT_MODE_HOW = 'start the server with `npm run dev` (or set LOTPROOF_DEV=1, or NODE_ENV=development)';
+
+/**
+ * Development mode is asked for, never assumed: LOTPROOF_DEV (1/true or 0/false) decides when set;
+ * otherwise `--dev` on the command line (`npm run dev`) or NODE_ENV=development or test turns it on.
+ * Anything else — an unset NODE_ENV included — is production behaviour.
+ */
+export function developmentMode(env: NodeJS.ProcessEnv, argv: readonly string[]): boolean {
+  const asked = env.LOTPROOF_DEV === undefined || env.LOTPROOF_DEV === '' ? null : bool(env, 'LOTPROOF_DEV', false);
+  const flag = argv.includes('--dev');
+  if (env.NODE_ENV === 'production' && (asked === true || flag)) {
+    throw new ConfigError(`NODE_ENV=production contradicts ${asked ? 'LOTPROOF_DEV' : '--dev'}: development mode is for a local trial, never production`);
+  }
+  if (asked !== null) return asked;
+  return flag || env.NODE_ENV === 'development' || env.NODE_ENV === 'test';
+}
+
+export function loadConfig(env: NodeJS.ProcessEnv = process.env, argv: readonly string[] = process.argv.slice(2)): Config {
   const host = env.HOST || '127.0.0.1';
   const port = int(env, 'PORT', DEFAULT_PORT, 0, 65535);
   const databaseUrl = env.DATABASE_URL || null;
   if (databaseUrl && !/^postgres(ql)?:\/\//.test(databaseUrl)) {
     throw new ConfigError('DATABASE_URL must be a postgres:// connection string');
   }
-  const development = (env.NODE_ENV ?? 'development') !== 'production';
+  const development = developmentMode(env, argv);
   return {
     host,
     port,
     databaseUrl,
     embeddedPgPort: int(env, 'LOTPROOF_PG_PORT', 25480, 1024, 65535),
+    processes: int(env, 'LOTPROOF_PROCESSES', 1, 1, 64),
     dataDir: resolve(env.LOTPROOF_DATA_DIR || '.data'),
     secretsKey: secretsKeyOf(env.LOTPROOF_SECRETS_KEY, 'LOTPROOF_SECRETS_KEY'),
     secretsKeysPrevious: (env.LOTPROOF_SECRETS_KEY_PREVIOUS ?? '').split(',').filter((k) => k.trim()).map((k) => secretsKeyOf(k, 'LOTPROOF_SECRETS_KEY_PREVIOUS')!),
     bodyLimitBytes: int(env, 'LOTPROOF_BODY_LIMIT_MB', 40, 1, 1024) * 1024 * 1024,
+    smallBodyLimitBytes: Math.min(int(env, 'LOTPROOF_SMALL_BODY_LIMIT_KB', 64, 1, 1024 * 1024), int(env, 'LOTPROOF_BODY_LIMIT_MB', 40, 1, 1024) * 1024) * 1024,
+    http: {
+      headersTimeoutMs: int(env, 'LOTPROOF_HEADERS_TIMEOUT_MS', 10_000, 100, 600_000),
+      minBodyBytesPerSecond: int(env, 'LOTPROOF_MIN_BODY_RATE_KB', 512, 1, 1024 * 1024) * 1024,
+      keepAliveTimeoutMs: int(env, 'LOTPROOF_KEEP_ALIVE_TIMEOUT_MS', 5_000, 100, 600_000),
+      maxConnections: int(env, 'LOTPROOF_MAX_CONNECTIONS', 1000, 1, 1_000_000),
+    },
     publicUrl: (env.LOTPROOF_PUBLIC_URL || `http://${host}:${port}`).replace(/\/$/, ''),
     trustProxy: parseTrustProxy(env.LOTPROOF_TRUST_PROXY),
     logLevel: env.LOG_LEVEL || (development ? 'info' : 'info'),

@@ -12,7 +12,7 @@ import { ForbiddenProblem, UnauthorizedProblem } from './problem';
 declare module 'express-serve-static-core' {
   interface Request {
     principal?: Principal;
-    /** The bytes of a JSON body as received (set by the JSON body parser). */
+    /** The bytes of the body as read (request-body.ts): a JSON body as received, a CSV body as UTF-8 without a BOM. */
     rawBody?: Buffer;
   }
 }

@@ -16,14 +16,14 @@ export function sendStored(res: Response, r: StoredReply): void {
 /**
  * The one fingerprint an Idempotency-Key is bound to: SHA-256 of the request as sent — its media
  * kind, then (for a text/csv body, whose lot fields travel as query parameters) the sorted query,
- * then the body's bytes. A JSON body is hashed as received (`rawBody`, kept by the body parser),
- * never serialised again: the same bytes replay, other bytes are another request.
+ * then the body's bytes. A body is hashed as read (`rawBody`, kept by request-body.ts: a JSON body
+ * as received, a CSV body as UTF-8 without a BOM), never serialised again: the same bytes replay,
+ * other bytes are another request.
  */
 export function requestFingerprint(req: Request): string {
   const h = createHash('sha256');
   if (req.is('text/csv')) {
-    const text = typeof req.body === 'string' ? req.body : '';
-    h.update('csv\n').update(JSON.stringify(Object.entries(req.query as Record<string, unknown>).sort())).update('\n').update(text);
+    h.update('csv\n').update(JSON.stringify(Object.entries(req.query as Record<string, unknown>).sort())).update('\n').update(req.rawBody ?? '');
   } else {
     h.update('json\n').update(req.rawBody ?? '');
   }

@@ -40,11 +40,12 @@ function jsonLot(req: Request): RequestedLot {
 /** A text/csv body: one pack per line in the column named by ?column=, the lot's fields in the query. */
 async function csvLot(req: Request): Promise<RequestedLot> {
   const q = req.query as CsvQuery;
-  const text = typeof req.body === 'string' ? req.body : '';
+  // the body as UTF-8 bytes (http/request-body.ts), read in slices: never one string of the whole CSV
+  const bytes = req.rawBody ?? Buffer.alloc(0);
   if (!q.column) throw new ValidationProblem('a text/csv lot needs ?column=<header of the measurement column>', [{ pointer: '/query/column', detail: 'required with text/csv' }]);
   let csv;
   try {
-    csv = await readCsvLot(text, q.column, q.tareColumn ?? null, MAX_MEASUREMENTS);
+    csv = await readCsvLot(bytes, q.column, q.tareColumn ?? null, MAX_MEASUREMENTS);
   } catch (err) {
     if ((err as { tooMany?: boolean }).tooMany) throw failureProblem(tooManyMeasurements(MAX_MEASUREMENTS + 1), req);
     throw err;
@@ -62,7 +63,7 @@ async function csvLot(req: Request): Promise<RequestedLot> {
   return {
     lot: {
       sub,
-      source: { format: 'csv', sha256: createHash('sha256').update(text, 'utf8').digest('hex'), column: q.column, tareColumn: q.tareColumn ?? null },
+      source: { format: 'csv', sha256: createHash('sha256').update(bytes).digest('hex'), column: q.column, tareColumn: q.tareColumn ?? null },
     },
     locate: (x) => {
       const v = VALUE.exec(x.field);
