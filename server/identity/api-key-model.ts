@@ -11,6 +11,8 @@ export class ApiKey extends Model {
   declare revokedAt: Date | null;
   declare lastUsedAt: Date | null;
   declare createdBy: string | null;
+  /** The key that made this one (null when an admin or the operator did): it ends when its parent ends. */
+  declare parentKeyId: string | null;
   declare createdAt: Date;
 }
 
@@ -27,6 +29,7 @@ export function initApiKey(sequelize: Sequelize): void {
       revokedAt: { type: DataTypes.DATE },
       lastUsedAt: { type: DataTypes.DATE },
       createdBy: { type: DataTypes.UUID },
+      parentKeyId: { type: DataTypes.UUID },
       createdAt: { type: DataTypes.DATE, allowNull: false, defaultValue: DataTypes.NOW },
     },
     { sequelize, tableName: 'api_keys' },

@@ -4,9 +4,17 @@
 //
 // Persistence: the ApiKey model issues, lists and revokes; the check of a presented key, on every
 // request, reads the row with a raw prepared statement (db/raw.ts) instead, as no model instance
-// is needed there and the read is the hottest of the server.
+// is needed there and the read is the hottest of the server; and revoking a key's descendants is
+// one set-based raw statement (a recursive walk down parent_key_id), not a model call per key.
+//
+// A key made by a key records its parent. Revoking the parent revokes every descendant in the same
+// transaction, so the check of a presented key stays one row and needs no walk up its ancestry;
+// expiry needs none either, as a child never expires later than its parent (api-keys.ts). A child
+// being made while its parent is revoked cannot slip between the two: the maker holds the parent's
+// row FOR SHARE until its child is committed, and the revoker takes the row FOR UPDATE before it
+// walks down, so it waits for the child and then sees it.
 import { createHash, randomBytes, timingSafeEqual } from 'node:crypto';
-import { Op } from 'sequelize';
+import { Op, QueryTypes, type Transaction } from 'sequelize';
 import { freshReads, preparedRows } from '../db/raw';
 import { ApiKey } from './api-key-model';
 import type { Principal, Scope } from '../core/principal';
@@ -29,13 +37,18 @@ function randomPrefix(): string {
   return Array.from(bytes, (b) => alphabet[b % alphabet.length]).join('');
 }
 
-export async function issueApiKey(input: {
-  organisationId: string;
-  name: string;
-  scopes: Scope[];
-  expiresAt?: Date | null;
-  createdBy?: string | null;
-}): Promise<IssuedKey> {
+export async function issueApiKey(
+  input: {
+    organisationId: string;
+    name: string;
+    scopes: Scope[];
+    expiresAt?: Date | null;
+    createdBy?: string | null;
+    /** The key that makes this one, if a key does. */
+    parentKeyId?: string | null;
+  },
+  transaction?: Transaction,
+): Promise<IssuedKey> {
   const prefix = randomPrefix();
   const secret = `lpk_${prefix}_${randomBytes(32).toString('base64url')}`;
   const key = await ApiKey.create({
@@ -46,8 +59,16 @@ export async function issueApiKey(input: {
     scopes: [...new Set(input.scopes)],
     expiresAt: input.expiresAt ?? null,
     createdBy: input.createdBy ?? null,
-  });
+    parentKeyId: input.parentKeyId ?? null,
+  }, { transaction });
   return { key, secret };
+}
+
+/** A live key, locked FOR SHARE until the transaction ends (it cannot be revoked meanwhile); null if revoked, expired or unknown. */
+export async function lockLiveKey(organisationId: string, keyId: string, transaction: Transaction, now = new Date()): Promise<ApiKey | null> {
+  const key = await ApiKey.findOne({ where: { id: keyId, organisationId }, lock: transaction.LOCK.SHARE, transaction });
+  if (!key || key.revokedAt || (key.expiresAt && key.expiresAt.getTime() <= now.getTime())) return null;
+  return key;
 }
 
 export type KeyCheck =
@@ -102,11 +123,44 @@ export async function verifyApiKey(secret: string, now = new Date()): Promise<Ke
   };
 }
 
-export async function revokeApiKey(organisationId: string, keyId: string): Promise<ApiKey | null> {
-  const key = await ApiKey.findOne({ where: { id: keyId, organisationId } });
+export interface RevokedDescendant {
+  id: string;
+  name: string;
+  prefix: string;
+  parentKeyId: string;
+}
+
+const REVOKE_DESCENDANTS = `
+  WITH RECURSIVE descendants AS (
+    SELECT id FROM api_keys WHERE parent_key_id = $1 AND organisation_id = $2
+    UNION ALL
+    SELECT k.id FROM api_keys k JOIN descendants d ON k.parent_key_id = d.id
+  )
+  UPDATE api_keys k SET revoked_at = $3
+    FROM descendants d
+   WHERE k.id = d.id AND k.revoked_at IS NULL
+  RETURNING k.id, k.name, k.prefix, k.parent_key_id AS "parentKeyId"`;
+
+/**
+ * Revokes a key and, in the same transaction, every key it made and they made in turn (also under a
+ * parent revoked before). `wasLive` says whether the key itself was live until now.
+ */
+export async function revokeApiKey(
+  organisationId: string,
+  keyId: string,
+  transaction: Transaction,
+): Promise<{ key: ApiKey; wasLive: boolean; descendants: RevokedDescendant[] } | null> {
+  const key = await ApiKey.findOne({ where: { id: keyId, organisationId }, lock: transaction.LOCK.UPDATE, transaction });
   if (!key) return null;
-  if (!key.revokedAt) await key.update({ revokedAt: new Date() });
-  return key;
+  const now = new Date();
+  const wasLive = !key.revokedAt;
+  if (wasLive) await key.update({ revokedAt: now }, { transaction });
+  const descendants = await ApiKey.sequelize!.query<RevokedDescendant>(REVOKE_DESCENDANTS, {
+    bind: [key.id, organisationId, now],
+    type: QueryTypes.SELECT,
+    transaction,
+  });
+  return { key, wasLive, descendants };
 }
 
 export async function listApiKeys(organisationId: string): Promise<ApiKey[]> {

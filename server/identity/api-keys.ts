@@ -1,8 +1,8 @@
 // API keys as admins see them: issue (the secret is returned once), list, read, revoke — each
-// change written to the audit trail. Verification of presented keys is in api-keys.ts.
+// change written to the audit trail. Verification of presented keys is in api-key-store.ts.
 import { ApiKey } from './api-key-model';
-import { InvalidInput, NotFound, Refused } from '../core/errors';
-import { issueApiKey, listApiKeys, revokeApiKey } from './api-key-store';
+import { InvalidInput, NotAuthenticated, NotFound, Refused } from '../core/errors';
+import { issueApiKey, listApiKeys, lockLiveKey, revokeApiKey } from './api-key-store';
 import { recordAudit, type Actor } from './audit-trail';
 import type { Principal, Scope } from '../core/principal';
 
@@ -54,10 +54,40 @@ export async function createKey(
       );
     }
   }
+  const { organisationId } = actor.principal;
   const createdBy = actor.principal.userId ?? actor.principal.keyId ?? null;
-  const { key, secret } = await issueApiKey({ organisationId: actor.principal.organisationId, name, scopes: input.scopes, expiresAt, createdBy });
-  await recordAudit(actor.principal.organisationId, actor, 'key.created', { kind: 'api-key', id: key.id }, { name, scopes: key.scopes, prefix: `lpk_${key.prefix}` });
-  return { key: apiKeyView(key), secret };
+  return ApiKey.sequelize!.transaction(async (transaction) => {
+    // A key made by a key hangs from it: it expires no later (unasked, it takes the parent's
+    // expiry), and revoking the parent revokes it (api-key-store.ts). The parent stays locked until
+    // the child is committed, so a revocation meanwhile waits for the child and takes it along.
+    let parentKeyId: string | null = null;
+    let expiry = expiresAt;
+    if (actor.principal.kind === 'api-key' && actor.principal.keyId) {
+      const parent = await lockLiveKey(organisationId, actor.principal.keyId, transaction);
+      if (!parent) throw new NotAuthenticated('The API key has been revoked or has expired.');
+      parentKeyId = parent.id;
+      if (parent.expiresAt) {
+        if (!expiry) expiry = parent.expiresAt;
+        else if (expiry.getTime() > parent.expiresAt.getTime()) {
+          throw new Refused(
+            'expiry-beyond-parent',
+            `A key made by an API key expires no later than that key, at ${parent.expiresAt.toISOString()}. Ask for that or an earlier expiry, or leave it out to get that one.`,
+            [{ field: '/expiresAt', detail: `later than the issuing key's expiry ${parent.expiresAt.toISOString()}` }],
+          );
+        }
+      }
+    }
+    const { key, secret } = await issueApiKey({ organisationId, name, scopes: input.scopes, expiresAt: expiry, createdBy, parentKeyId }, transaction);
+    await recordAudit(
+      organisationId,
+      actor,
+      'key.created',
+      { kind: 'api-key', id: key.id },
+      { name, scopes: key.scopes, prefix: `lpk_${key.prefix}`, ...(parentKeyId ? { parentKeyId } : {}) },
+      transaction,
+    );
+    return { key: apiKeyView(key), secret };
+  });
 }
 
 export async function listKeys(organisationId: string): Promise<ApiKeyView[]> {
@@ -70,13 +100,29 @@ export async function getKey(organisationId: string, keyId: string): Promise<Api
   return apiKeyView(key);
 }
 
-/** Revokes at once: every process reads the key row on each request. */
+/**
+ * Revokes at once (every process reads the key row on each request), together with every key it
+ * made, and they made in turn: one transaction, one audit event per key ended.
+ */
 export async function revokeKey(actor: Actor & { principal: Principal }, keyId: string): Promise<ApiKeyView> {
-  const before = await ApiKey.findOne({ where: { id: keyId, organisationId: actor.principal.organisationId } });
-  const key = await revokeApiKey(actor.principal.organisationId, keyId);
-  if (!key) throw new NotFound(`No API key ${keyId} in this organisation.`);
-  if (before && !before.revokedAt) {
-    await recordAudit(actor.principal.organisationId, actor, 'key.revoked', { kind: 'api-key', id: key.id }, { name: key.name, prefix: `lpk_${key.prefix}` });
-  }
-  return apiKeyView(key);
+  const { organisationId } = actor.principal;
+  return ApiKey.sequelize!.transaction(async (transaction) => {
+    const revoked = await revokeApiKey(organisationId, keyId, transaction);
+    if (!revoked) throw new NotFound(`No API key ${keyId} in this organisation.`);
+    const { key } = revoked;
+    if (revoked.wasLive) {
+      await recordAudit(organisationId, actor, 'key.revoked', { kind: 'api-key', id: key.id }, { name: key.name, prefix: `lpk_${key.prefix}` }, transaction);
+    }
+    for (const d of revoked.descendants) {
+      await recordAudit(
+        organisationId,
+        actor,
+        'key.revoked',
+        { kind: 'api-key', id: d.id },
+        { name: d.name, prefix: `lpk_${d.prefix}`, reason: 'parent-revoked', parentKeyId: d.parentKeyId },
+        transaction,
+      );
+    }
+    return apiKeyView(key);
+  });
 }

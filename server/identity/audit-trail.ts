@@ -1,6 +1,6 @@
 // The admin audit trail: who did what to keys, users and invitations, and failed sign-ins — who,
 // when, from where. Written by the identity services; read by admins and auditors.
-import { Op, type WhereOptions } from 'sequelize';
+import { Op, type Transaction, type WhereOptions } from 'sequelize';
 import { ApiKey } from './api-key-model';
 import { AuditEvent, User } from './models';
 import { InvalidInput } from '../core/errors';
@@ -19,6 +19,10 @@ export const AUDIT_ACTIONS = [
   'user.password-reset-requested',
   'user.password-reset',
   'organisation.created',
+  'webhook.created',
+  'webhook.updated',
+  'webhook.deleted',
+  'webhook.tested',
 ] as const;
 export type AuditAction = (typeof AUDIT_ACTIONS)[number];
 
@@ -31,14 +35,14 @@ export interface Actor {
   ip?: string | null;
 }
 
-async function describeActor(actor: Actor): Promise<{ actorKind: string; actorId: string | null; actorLabel: string }> {
+async function describeActor(actor: Actor, transaction?: Transaction): Promise<{ actorKind: string; actorId: string | null; actorLabel: string }> {
   const p = actor.principal;
   if (p?.kind === 'session' && p.userId) {
-    const user = await User.findByPk(p.userId, { attributes: ['email'] });
+    const user = await User.findByPk(p.userId, { attributes: ['email'], transaction });
     return { actorKind: 'user', actorId: p.userId, actorLabel: actor.label ?? user?.email ?? '' };
   }
   if (p?.kind === 'api-key' && p.keyId) {
-    const key = await ApiKey.findByPk(p.keyId, { attributes: ['name', 'prefix'] });
+    const key = await ApiKey.findByPk(p.keyId, { attributes: ['name', 'prefix'], transaction });
     return { actorKind: 'api-key', actorId: p.keyId, actorLabel: actor.label ?? (key ? `${key.name} (lpk_${key.prefix}…)` : '') };
   }
   return { actorKind: actor.kind ?? 'anonymous', actorId: null, actorLabel: actor.label ?? '' };
@@ -50,16 +54,18 @@ export async function recordAudit(
   action: AuditAction,
   target: { kind: string; id: string } | null,
   details: Record<string, unknown> = {},
+  /** The change's own transaction: the event is written with it, or not at all. */
+  transaction?: Transaction,
 ): Promise<void> {
   await AuditEvent.create({
     organisationId,
     action,
-    ...(await describeActor(actor)),
+    ...(await describeActor(actor, transaction)),
     targetKind: target?.kind ?? null,
     targetId: target?.id ?? null,
     ip: actor.ip ?? null,
     details,
-  });
+  }, { transaction });
 }
 
 export interface AuditEventView {

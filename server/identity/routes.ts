@@ -4,6 +4,9 @@ import type { Request } from 'express';
 import type { AppContext, Handlers } from '../http/context';
 import { NotFoundProblem } from '../http/problem';
 import { clearSessionCookie, setSessionCookie } from './session-cookie.http';
+import { listensOnLoopbackOnly, mailboxRefusal } from './dev-mailbox.http';
+import { DEVELOPMENT_MODE_HOW } from '../config';
+import { Failure } from '../core/errors';
 import type { Actor } from './audit-trail';
 import { listAudit } from './audit-trail';
 import {
@@ -21,7 +24,7 @@ import { createKey, getKey, listKeys, revokeKey } from './api-keys';
 import { configureMailer, readDevMailbox } from '../core/mailer';
 import type { Principal, Role, Scope } from '../core/principal';
 import { createRateLimits } from '../metering/rate-limits';
-import { describeSession, revokeSession, signIn } from './sessions';
+import { describeSession, revokeSession, signIn, signInLimitConfig } from './sessions';
 import { changeRole, listUsers, removeUser } from './users';
 
 function ip(req: Request): string {
@@ -36,15 +39,29 @@ export function identityHandlers(ctx: AppContext): Handlers {
   const { config } = ctx;
   configureMailer(config.smtp);
   const limits = createRateLimits(ctx.db.sequelize, config.rateLimits);
+  const signInLimits = createRateLimits(ctx.db.sequelize, signInLimitConfig(config.rateLimits));
   const links = { publicUrl: config.publicUrl, ttlHours: config.sessions.invitationTtlHours };
+  const resets = {
+    publicUrl: config.publicUrl,
+    ttlMinutes: config.sessions.passwordResetTtlMinutes,
+    limits,
+    // After the 202: the name of what failed, and our own message; never the address, a token or SQL.
+    onError: (err: unknown) =>
+      ctx.logger.warn({ failure: err instanceof Error ? err.name : typeof err, detail: err instanceof Failure ? err.message : undefined }, 'password reset: the link could not be sent'),
+  };
+  if (!config.development) {
+    ctx.logger.info(`Development mode is off (production behaviour): no development mailbox, no local SMTP fake, no webhooks to private addresses. For a local trial, ${DEVELOPMENT_MODE_HOW}.`);
+  } else if (!listensOnLoopbackOnly(config)) {
+    ctx.logger.warn(`Development mode, but listening on ${config.host}, beyond loopback: the development mailbox is off.`);
+  }
 
   return {
     signIn: async (req, res) => {
       const { token, view } = await signIn(
         { email: req.body.email, password: req.body.password, ip: ip(req) },
-        { ttlHours: config.sessions.ttlHours, limits },
+        { ttlHours: config.sessions.ttlHours, limits: signInLimits },
       );
-      setSessionCookie(res, token, new Date(view.expiresAt), config.publicUrl);
+      setSessionCookie(req, res, token, new Date(view.expiresAt), config.publicUrl);
       res.status(201).json(view);
     },
     getSession: async (req, res) => {
@@ -52,7 +69,7 @@ export function identityHandlers(ctx: AppContext): Handlers {
     },
     signOut: async (req, res) => {
       await revokeSession(req.principal!);
-      clearSessionCookie(res, config.publicUrl);
+      clearSessionCookie(req, res, config.publicUrl);
       res.status(204).end();
     },
 
@@ -88,7 +105,8 @@ export function identityHandlers(ctx: AppContext): Handlers {
       res.status(201).json(await acceptInvitation({ token: req.body.token, password: req.body.password, name: req.body.name, ip: ip(req) }));
     },
     requestPasswordReset: async (req, res) => {
-      await requestPasswordReset({ email: req.body.email, ip: ip(req) }, { publicUrl: config.publicUrl, ttlMinutes: config.sessions.passwordResetTtlMinutes, limits });
+      // Answered before anything about the address is looked up (its timing tells nothing).
+      requestPasswordReset({ email: req.body.email, ip: ip(req) }, resets);
       res.status(202).end();
     },
     completePasswordReset: async (req, res) => {
@@ -121,8 +139,10 @@ export function identityHandlers(ctx: AppContext): Handlers {
       );
     },
 
-    getDevMailbox: (_req, res) => {
-      if (!config.development) throw new NotFoundProblem('No route for GET /v1/dev/mailbox. The API lives under /v1; see /docs.');
+    getDevMailbox: (req, res) => {
+      // Every organisation's links: development mode, a server on loopback, a client on loopback.
+      const refusal = mailboxRefusal(config, req);
+      if (refusal) throw new NotFoundProblem(refusal);
       res.setHeader('Cache-Control', 'no-store');
       res.json({ items: readDevMailbox() });
     },

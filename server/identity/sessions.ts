@@ -6,6 +6,7 @@ import { Session, User } from './models';
 import { NotAuthenticated } from '../core/errors';
 import { recordAudit } from './audit-trail';
 import type { RateLimits } from '../metering/rate-limits';
+import type { RateLimitConfig } from '../config';
 import { burnPasswordCheck, hashToken, newToken, TOKEN_PATTERN, verifyPassword } from './credentials';
 import { normaliseEmail, userView, type UserView } from './users';
 import type { Principal, Role } from '../core/principal';
@@ -46,16 +47,38 @@ export async function startSession(user: User, ttlHours: number, ip: string | nu
 
 const WRONG = 'The e-mail address or the password is not right.';
 
+/**
+ * The limits signIn must be given (`createRateLimits(sequelize, signInLimitConfig(cfg))`): signIn
+ * counts each attempt before it checks the password, so the attempt being made is already on the
+ * counter when it asks whether it may go on, and "N failures allowed" is a counter that refuses at
+ * N + 1.
+ */
+export function signInLimitConfig(cfg: RateLimitConfig): RateLimitConfig {
+  return { ...cfg, signInFailuresPerAccount: cfg.signInFailuresPerAccount + 1, signInFailuresPerIp: cfg.signInFailuresPerIp + 1 };
+}
+
+/**
+ * Signs in with e-mail and password. The failure counters are shared by every process (in
+ * PostgreSQL), and an attempt is counted before its password is checked, with one atomic increment
+ * per counter: of any number of concurrent attempts at one account, at most the configured number
+ * get a password check in a window (the rest are refused with 429 before the check), where reading
+ * the counter first and counting after a failed check let all of them through. A success clears
+ * the account's counter; on the per-IP counter it stays counted (RateLimits offers no refund).
+ * `opts.limits` is built from signInLimitConfig.
+ */
 export async function signIn(
   input: { email: string; password: string; ip: string },
   opts: { ttlHours: number; limits: RateLimits },
 ): Promise<StartedSession> {
   const email = normaliseEmail(input.email);
+  // Refused at once, and nothing counted, while the account or address is locked already.
+  await opts.limits.assertSignInAllowed(email, input.ip);
+  await opts.limits.signInFailed(email, input.ip);
+  // Now with this attempt, and every other one in flight, on the counters.
   await opts.limits.assertSignInAllowed(email, input.ip);
   const user = await User.findOne({ where: { email, removedAt: null } });
   const ok = user ? await verifyPassword(input.password, user.passwordHash) : (await burnPasswordCheck(input.password), false);
   if (!user || !ok) {
-    await opts.limits.signInFailed(email, input.ip);
     if (user) {
       await recordAudit(user.organisationId, { kind: 'anonymous', label: email, ip: input.ip }, 'user.sign-in-failed', { kind: 'user', id: user.id }, { email });
     }

@@ -64,8 +64,9 @@ export interface paths {
         put?: never;
         /**
          * Sign in to the console with e-mail and password
-         * @description Sets the `lotproof_session` cookie on success. Failed attempts are limited per account and
-         *     per client address; past the limit the answer is 429 with `Retry-After`.
+         * @description Sets the session cookie on success. Failed attempts are limited per account and per client
+         *     address, and each attempt counts before its password is checked, so concurrent attempts get
+         *     no more checks than the limit; past it the answer is 429 with `Retry-After`.
          */
         post: operations["signIn"];
         /** Sign out (ends this session at once) */
@@ -104,13 +105,18 @@ export interface paths {
         get?: never;
         put?: never;
         post?: never;
-        /** Remove a user (their sessions end at once) */
+        /**
+         * Remove a user (their sessions end at once)
+         * @description The last admin cannot be removed (409). The user's sessions end and the invitations they
+         *     sent that are still pending are revoked, each in the audit trail.
+         */
         delete: operations["removeUser"];
         options?: never;
         head?: never;
         /**
          * Change a user's role
-         * @description The last admin of an organisation cannot be given another role (409).
+         * @description The last admin of an organisation cannot be given another role (409). An admin who gets
+         *     another role loses their pending invitations (revoked, each in the audit trail).
          */
         patch: operations["changeUserRole"];
         trace?: never;
@@ -128,7 +134,10 @@ export interface paths {
         /**
          * Invite someone by e-mail to join with a role
          * @description Sends an e-mail with a one-time link to `/accept-invite?token=…` on the console. A newer
-         *     invitation to the same address replaces a pending one. 409 when the address has an account.
+         *     invitation to the same address replaces a pending one. 409 when the address has an account
+         *     in this organisation; an account elsewhere is not disclosed (accepting is then refused, as
+         *     an address has one account). The link stops working if whoever sent it is removed or
+         *     stops being an admin.
          *     With an `Idempotency-Key`, a retry returns the first reply and sends no second e-mail.
          */
         post: operations["createInvitation"];
@@ -203,8 +212,8 @@ export interface paths {
         put?: never;
         /**
          * Ask for a password reset link by e-mail
-         * @description Always 202, whether or not the address has an account, so the answer tells nobody which
-         *     addresses exist. The e-mail links to `/reset-password?token=…` on the console. At most
+         * @description Always 202, whether or not the address has an account, and answered before the address is
+         *     looked up, so neither the answer nor its timing tells anybody which addresses exist. The e-mail links to `/reset-password?token=…` on the console. At most
          *     5 links per account per hour are sent; further requests are answered 202 and send nothing.
          */
         post: operations["requestPasswordReset"];
@@ -267,7 +276,10 @@ export interface paths {
         get: operations["getApiKey"];
         put?: never;
         post?: never;
-        /** Revoke an API key; it is refused from the very next request, by every server process */
+        /**
+         * Revoke an API key; it is refused from the very next request, by every server process
+         * @description Every key it made with `keys:manage`, and they made in turn, is revoked with it (each in the audit trail).
+         */
         delete: operations["revokeApiKey"];
         options?: never;
         head?: never;
@@ -298,7 +310,7 @@ export interface paths {
             path?: never;
             cookie?: never;
         };
-        /** E-mail captured by the local SMTP fake (development only; 404 in production) */
+        /** E-mail captured by the local SMTP fake (development mode, loopback only; 404 otherwise) */
         get: operations["getDevMailbox"];
         put?: never;
         post?: never;
@@ -768,7 +780,7 @@ export interface components {
             status: "active" | "revoked" | "expired";
         };
         /** @enum {string} */
-        AuditAction: "key.created" | "key.revoked" | "user.invited" | "invitation.revoked" | "invitation.accepted" | "user.role-changed" | "user.removed" | "user.signed-in" | "user.sign-in-failed" | "user.password-reset-requested" | "user.password-reset" | "organisation.created";
+        AuditAction: "key.created" | "key.revoked" | "user.invited" | "invitation.revoked" | "invitation.accepted" | "user.role-changed" | "user.removed" | "user.signed-in" | "user.sign-in-failed" | "user.password-reset-requested" | "user.password-reset" | "organisation.created" | "webhook.created" | "webhook.updated" | "webhook.deleted" | "webhook.tested";
         AuditEvent: {
             /** Format: uuid */
             id: string;
@@ -894,18 +906,39 @@ export interface components {
         Testing: "destructive" | "non-destructive";
         /** @enum {string} */
         Decision: "conforming" | "nonconforming" | "second-sample-required" | "insufficient-data";
+        /** @description The rulebook a product is judged by, with the parameters that rulebook takes and no others (each rulebook's `parameters` in GET /v1/rulebooks): `eu-76-211` takes `nonDestructivePlan`, `custom` its own seven, `oiml-r87-2016` none. Every value is bounded, so a choice is a few hundred bytes at most; it is copied into every verdict judged by it. */
         RulebookChoice: {
             /** @enum {string} */
             id: "eu-76-211" | "oiml-r87-2016" | "custom";
-            /**
-             * @description Parameters of the chosen rulebook, as GET /v1/rulebooks lists them: for `custom` its significance level, limits and smallest sample; for `eu-76-211` `nonDestructivePlan`, `double` (the Directive's plan, the default) or `single` (the single plan of the UK reference test, SI 2006/659 Schedule 2 para 3.3–3.5).
-             * @example {
-             *       "nonDestructivePlan": "double"
-             *     }
-             */
-            params?: {
-                [key: string]: unknown;
-            };
+            params?: components["schemas"]["RulebookParams"];
+        } & (unknown & unknown & unknown);
+        /**
+         * @description Parameters of the chosen rulebook, as GET /v1/rulebooks lists them: for `eu-76-211` `nonDestructivePlan`, `double` (the Directive's plan, the default) or `single` (the single plan of the UK reference test, SI 2006/659 Schedule 2 para 3.3–3.5); for `custom` its significance level, alternative, hypothesised mean, known standard deviation, limits and smallest sample; `oiml-r87-2016` takes none. A name the chosen rulebook does not take is refused (400); a value of the right type that the rulebook cannot use is a 422.
+         * @example {
+         *       "nonDestructivePlan": "double"
+         *     }
+         */
+        RulebookParams: {
+            /** @description eu-76-211: 'double' (default) or 'single' */
+            nonDestructivePlan?: string;
+            /** @description custom: significance level of the mean test, in (0, 1); default 0.05 */
+            alpha?: number;
+            /** @description custom: 'less' (default), 'greater' or 'two-sided' */
+            alternative?: string;
+            /** @description custom: hypothesised mean in the declared unit; default the nominal quantity */
+            hypothesisedMean?: number;
+            /** @description custom: known process standard deviation in the declared unit; switches to a z test */
+            knownStandardDeviation?: number;
+            lowerLimit?: components["schemas"]["IndividualLimit"];
+            upperLimit?: components["schemas"]["IndividualLimit"];
+            /** @description custom: smallest sample for a decision, at least 2; default 2 */
+            minimumSampleSize?: number;
+        };
+        /** @description custom: packs with net quantity beyond `value` (declared unit) count against `allowed` */
+        IndividualLimit: {
+            value: number;
+            /** @description at least 0 */
+            allowed: number;
         };
         /** @description Give the product by `productId` or `sku`. lotCode, lotSize and testing are required except for a second sample, which takes them from the first. */
         LotSubmission: {
@@ -1340,7 +1373,7 @@ export interface operations {
             /** @description Signed in; the session cookie is set */
             201: {
                 headers: {
-                    /** @description `lotproof_session=…; HttpOnly; SameSite=Strict; Path=/` (and `Secure` on https) */
+                    /** @description Over https `__Host-lotproof_session=…; Path=/; HttpOnly; Secure; SameSite=Strict`; over plain http `lotproof_session=…; Path=/; HttpOnly; SameSite=Strict` */
                     "Set-Cookie"?: string;
                     [name: string]: unknown;
                 };
@@ -1733,7 +1766,9 @@ export interface operations {
                     scopes: components["schemas"]["Scope"][];
                     /**
                      * Format: date-time
-                     * @description Optional; the key stops working at this instant.
+                     * @description Optional; the key stops working at this instant. A key made with another API key
+                     *     expires no later than that key (left out, it takes that key's expiry; later is
+                     *     refused, 422), and is revoked with it.
                      */
                     expiresAt?: string | null;
                 };
