@@ -33,6 +33,18 @@ export function publicOnlyLookup(resolve: Resolver = systemResolver): LookupFunc
   };
 }
 
+// Keep-alive agents: a receiver that takes many deliveries gets them over a few reused connections
+// instead of a new connection (and TLS handshake) each. A pooled connection was made to an address
+// checked when it was connected, so reusing it checks nothing less. Checked and unchecked
+// (private targets allowed) connections are kept apart.
+// No cap on sockets per host here: the outbox caps deliveries per endpoint and organisation, and a cap
+// per host would let one tenant's slow endpoint hold up another's at the same host.
+const agentOptions = { keepAlive: true, maxFreeSockets: 16, timeout: 4_000 };
+const agents = {
+  checked: { http: new http.Agent(agentOptions), https: new https.Agent(agentOptions) },
+  unchecked: { http: new http.Agent(agentOptions), https: new https.Agent(agentOptions) },
+};
+
 export interface PostResult {
   status: number;
 }
@@ -53,7 +65,8 @@ export function postWebhook(url: string, headers: Record<string, string>, body: 
         method: 'POST',
         headers: { ...headers, 'content-length': String(Buffer.byteLength(body)) },
         ...(opts.allowPrivate ? {} : { lookup: publicOnlyLookup(opts.resolve) }),
-        agent: false,
+        // a test's own resolver never shares connections with real ones
+        agent: opts.resolve ? false : agents[opts.allowPrivate ? 'unchecked' : 'checked'][u.protocol === 'https:' ? 'https' : 'http'],
       },
       (res) => {
         res.resume();

@@ -6,7 +6,7 @@ import { isIP } from 'node:net';
 import ipaddr from 'ipaddr.js';
 import { QueryTypes, type Sequelize } from 'sequelize';
 import type { components } from '../../shared/api/schema';
-import { InvalidInput, NotFound } from '../core/errors';
+import { InvalidInput, NotAllowed, NotFound, TooMany } from '../core/errors';
 import { WebhookEndpoint } from './models';
 import { decodeCursor, encodeCursor } from '../core/cursor';
 import { ledgerEvents } from '../verdicts/ledger';
@@ -14,6 +14,8 @@ import { TEST_EVENT } from '../verdicts/notifications';
 import type { Principal } from '../core/principal';
 import { isSealed, type SecretBox } from '../core/secret-box';
 import { forEachStoredReply } from '../core/idempotency';
+// The organisation's audit trail is the identity area's; webhook changes are written to it too.
+import { recordAudit, type AuditAction } from '../identity/audit-trail';
 
 type EndpointView = components['schemas']['WebhookEndpoint'];
 type DeliveryView = components['schemas']['WebhookDelivery'];
@@ -32,17 +34,40 @@ function view(e: WebhookEndpoint): EndpointView {
   };
 }
 
+// IPv6 ranges ipaddr.js leaves in 'unicast' that are no public host either, by name.
+const MORE_IPV6_RANGES: Record<string, [ipaddr.IPv6, number]> = {
+  // RFC 4291 §2.5.5.1 (deprecated): an IPv4 address in the low 32 bits, e.g. ::7f00:1 is 127.0.0.1
+  ipv4Compatible: [ipaddr.IPv6.parse('::'), 96],
+  // RFC 3879 (deprecated site-local), still routed inside some networks
+  siteLocal: [ipaddr.IPv6.parse('fec0::'), 10],
+  // RFC 8215: NAT64 prefix for local use, translating to IPv4 addresses of the local network
+  localNat64: [ipaddr.IPv6.parse('64:ff9b:1::'), 48],
+  // RFC 9637: documentation
+  documentation: [ipaddr.IPv6.parse('3fff::'), 20],
+};
+// RFC 4291 §2.4, IANA: global unicast is allocated from 2000::/3 only.
+const GLOBAL_UNICAST_V6: [ipaddr.IPv6, number] = [ipaddr.IPv6.parse('2000::'), 3];
+
+/** The range an address belongs to: ipaddr.js's names, then ours; 'unicast' only for a public host. */
+export function addressRange(ip: string): string {
+  const addr = ipaddr.parse(ip);
+  const named = addr.range();
+  if (named !== 'unicast' || addr.kind() === 'ipv4') return named;
+  const v6 = addr as ipaddr.IPv6;
+  return ipaddr.subnetMatch(v6, MORE_IPV6_RANGES as Record<string, [ipaddr.IPv4 | ipaddr.IPv6, number]>, v6.match(GLOBAL_UNICAST_V6) ? 'unicast' : 'unallocated');
+}
+
 /**
  * True for an IP address that is not plain global unicast: loopback, private, shared, link-local,
- * multicast, broadcast, benchmarking, documentation and other reserved ranges, and IPv6 forms that
- * carry or translate to an IPv4 address (mapped, NAT64, 6to4, Teredo). The range table is ipaddr.js's
- * (the parser Express itself uses for trust proxy).
+ * multicast, broadcast, benchmarking, documentation and other reserved ranges, IPv6 forms that
+ * carry or translate to an IPv4 address (mapped, compatible, NAT64 global and local, 6to4, Teredo),
+ * site-local, and any IPv6 address outside 2000::/3. The range table is ipaddr.js's (the parser
+ * Express itself uses for trust proxy) plus MORE_IPV6_RANGES.
  */
 export function isPrivateAddress(ip: string): boolean {
   const h = ip.replace(/^\[|\]$/g, '');
   if (!isIP(h)) return false;
-  const addr = ipaddr.parse(h);
-  return addr.range() !== 'unicast';
+  return addressRange(h) !== 'unicast';
 }
 
 /** True for hosts on loopback, link-local or private networks (refused unless allowed by config). */
@@ -64,6 +89,50 @@ function checkUrl(url: string, allowPrivate: boolean): void {
     throw new InvalidInput('webhook urls must be https:// on a public host', [{ field: '/url', detail: 'https on a public host required' }]);
   }
 }
+
+/**
+ * Who may send verdict data to a receiver of their choosing: only a caller that may read verdicts
+ * itself (the scopes and roles of getVerdict/listVerdicts in openapi/parts/verdicts.yaml). The
+ * document's access rule says "any one of" these scopes; managing webhooks needs keys:manage there,
+ * and this is the second condition: a keys:manage key without a verdict-reading scope can list,
+ * pause, describe, test and remove endpoints (none of which sends verdict data anywhere new), but
+ * not create one, nor point one at another URL, other events, or switch one on.
+ */
+const VERDICT_READING_SCOPES: readonly string[] = ['verdicts:read', 'audit:read'];
+const VERDICT_READING_ROLES: readonly string[] = ['admin', 'quality', 'auditor'];
+
+function mustReadVerdicts(principal: Principal, what: string): void {
+  const ok = principal.kind === 'api-key'
+    ? principal.scopes.some((s) => VERDICT_READING_SCOPES.includes(s))
+    : principal.role !== undefined && VERDICT_READING_ROLES.includes(principal.role);
+  if (!ok) {
+    throw new NotAllowed(
+      `${what} sends verdict data to the endpoint, so it needs an API key that may also read verdicts (verdicts:read or audit:read) besides keys:manage.`,
+    );
+  }
+}
+
+/** Where a request came from, for the audit trail (the principal itself is passed beside it). */
+export interface RequestOrigin {
+  ip?: string | null;
+}
+
+/** A URL as the audit trail keeps it: without query and fragment, which may carry a receiver's token. */
+function auditedUrl(url: string): string {
+  try {
+    const u = new URL(url);
+    return `${u.origin}${u.pathname}`;
+  } catch {
+    return '';
+  }
+}
+
+function audit(principal: Principal, from: RequestOrigin, action: AuditAction, endpointId: string, details: Record<string, unknown>): Promise<void> {
+  return recordAudit(principal.organisationId, { principal, ip: from.ip ?? null }, action, { kind: 'webhook', id: endpointId }, details);
+}
+
+/** A test event per endpoint at most this often (a test is a POST to a URL the caller chose). */
+export const TEST_EVENT_INTERVAL_SECONDS = 5;
 
 export function newWebhookSecret(): string {
   return `whsec_${randomBytes(32).toString('base64')}`;
@@ -124,7 +193,8 @@ export async function resealWebhookSecrets(sequelize: Sequelize, box: SecretBox)
 }
 
 /** Creates an endpoint; its signing secret is returned this once and stored sealed. */
-export async function createWebhook(principal: Principal, input: WebhookInput, allowPrivate: boolean, box: SecretBox): Promise<EndpointView & { secret: string }> {
+export async function createWebhook(principal: Principal, input: WebhookInput, allowPrivate: boolean, box: SecretBox, from: RequestOrigin = {}): Promise<EndpointView & { secret: string }> {
+  mustReadVerdicts(principal, 'Creating a webhook endpoint');
   checkUrl(input.url, allowPrivate);
   const id = randomUUID();
   const secret = newWebhookSecret();
@@ -137,6 +207,7 @@ export async function createWebhook(principal: Principal, input: WebhookInput, a
     enabled: input.enabled ?? true,
     secret: box.seal(secret, webhookSecretContext(id)),
   });
+  await audit(principal, from, 'webhook.created', e.id, { url: auditedUrl(e.url), events: e.events, enabled: e.enabled });
   return { ...view(e), secret };
 }
 
@@ -155,9 +226,11 @@ export async function getWebhook(principal: Principal, id: string): Promise<Endp
   return view(await find(principal, id));
 }
 
-export async function updateWebhook(principal: Principal, id: string, patch: WebhookPatch, allowPrivate: boolean): Promise<EndpointView> {
+export async function updateWebhook(principal: Principal, id: string, patch: WebhookPatch, allowPrivate: boolean, from: RequestOrigin = {}): Promise<EndpointView> {
   const e = await find(principal, id);
+  if (patch.url !== undefined || patch.events !== undefined || patch.enabled === true) mustReadVerdicts(principal, 'Changing where or which events a webhook endpoint sends, or switching it on,');
   if (patch.url) checkUrl(patch.url, allowPrivate);
+  const changed = (['url', 'events', 'description', 'enabled'] as const).filter((k) => patch[k] !== undefined);
   await e.update({
     ...(patch.url ? { url: patch.url } : {}),
     ...(patch.events ? { events: [...new Set(patch.events)] } : {}),
@@ -165,13 +238,23 @@ export async function updateWebhook(principal: Principal, id: string, patch: Web
     ...(patch.enabled !== undefined ? { enabled: patch.enabled } : {}),
     updatedAt: new Date(),
   });
+  await audit(principal, from, 'webhook.updated', e.id, {
+    changed,
+    ...(patch.url ? { url: auditedUrl(e.url) } : {}),
+    ...(patch.events ? { events: e.events } : {}),
+    ...(patch.enabled !== undefined ? { enabled: e.enabled } : {}),
+  });
   return view(e);
 }
 
-export async function deleteWebhook(principal: Principal, id: string): Promise<void> {
+export async function deleteWebhook(principal: Principal, id: string, from: RequestOrigin = {}): Promise<void> {
   const e = await find(principal, id);
   await e.update({ deletedAt: new Date(), enabled: false });
+  await audit(principal, from, 'webhook.deleted', e.id, { url: auditedUrl(e.url) });
 }
+
+/** How the log shows an attempt written before its POST and not completed (yet). */
+const IN_FLIGHT = 'no outcome yet: the attempt is under way, or its server stopped during it (then it is made again)';
 
 interface DeliveryRow {
   id: string;
@@ -185,8 +268,24 @@ interface DeliveryRow {
   delivered_at: Date | null;
 }
 
-export async function sendTestWebhook(sequelize: Sequelize, principal: Principal, id: string): Promise<DeliveryView> {
+export async function sendTestWebhook(sequelize: Sequelize, principal: Principal, id: string, from: RequestOrigin = {}): Promise<DeliveryView> {
   const e = await find(principal, id);
+  // Raw SQL beside the model here: the limit is one compare-and-set on the endpoint's last test,
+  // so concurrent requests (or processes) cannot both pass it.
+  const [allowed] = await sequelize.query(
+    `UPDATE webhook_endpoints SET last_test_at = now()
+      WHERE id = $1 AND organisation_id = $2 AND (last_test_at IS NULL OR last_test_at <= now() - make_interval(secs => $3))
+     RETURNING id`,
+    { bind: [e.id, principal.organisationId, TEST_EVENT_INTERVAL_SECONDS] },
+  );
+  if ((allowed as unknown[]).length === 0) {
+    const [rows] = await sequelize.query(
+      'SELECT greatest(1, ceil(extract(epoch FROM last_test_at + make_interval(secs => $2) - now())))::int AS wait FROM webhook_endpoints WHERE id = $1',
+      { bind: [e.id, TEST_EVENT_INTERVAL_SECONDS] },
+    );
+    const wait = (rows as Array<{ wait: number }>)[0]?.wait ?? TEST_EVENT_INTERVAL_SECONDS;
+    throw new TooMany(`A test event went to this endpoint less than ${TEST_EVENT_INTERVAL_SECONDS} s ago; send the next one in ${wait} s.`, wait);
+  }
   const deliveryId = randomUUID();
   const now = new Date();
   const payload = JSON.stringify({
@@ -198,6 +297,7 @@ export async function sendTestWebhook(sequelize: Sequelize, principal: Principal
     `INSERT INTO webhook_deliveries (id, organisation_id, endpoint_id, verdict_id, event_type, payload) VALUES ($1, $2, $3, NULL, $4, $5)`,
     { bind: [deliveryId, principal.organisationId, e.id, TEST_EVENT, payload] },
   );
+  await audit(principal, from, 'webhook.tested', e.id, { deliveryId });
   ledgerEvents.emit('appended');
   return {
     id: deliveryId,
@@ -233,8 +333,8 @@ export async function listDeliveries(
   const rows = await sequelize.query<DeliveryRow>(sql, { bind, type: QueryTypes.SELECT });
   const page = rows.slice(0, opts.limit);
   const attempts = page.length
-    ? await sequelize.query<{ delivery_id: string; attempt: number; attempted_at: Date; status_code: number | null; error: string | null; duration_ms: number }>(
-        'SELECT delivery_id, attempt, attempted_at, status_code, error, duration_ms FROM webhook_attempts WHERE delivery_id = ANY($1::uuid[]) ORDER BY attempt',
+    ? await sequelize.query<{ delivery_id: string; attempt: number; attempted_at: Date; status_code: number | null; error: string | null; duration_ms: number; in_flight: boolean }>(
+        'SELECT delivery_id, attempt, attempted_at, status_code, error, duration_ms, in_flight FROM webhook_attempts WHERE delivery_id = ANY($1::uuid[]) ORDER BY attempt',
         { bind: [page.map((r) => r.id)], type: QueryTypes.SELECT },
       )
     : [];
@@ -250,7 +350,7 @@ export async function listDeliveries(
     deliveredAt: r.delivered_at ? new Date(r.delivered_at).toISOString() : null,
     attemptLog: attempts
       .filter((a) => a.delivery_id === r.id)
-      .map((a) => ({ attempt: a.attempt, attemptedAt: new Date(a.attempted_at).toISOString(), statusCode: a.status_code, error: a.error, durationMs: a.duration_ms })),
+      .map((a) => ({ attempt: a.attempt, attemptedAt: new Date(a.attempted_at).toISOString(), statusCode: a.status_code, error: a.in_flight ? IN_FLIGHT : a.error, durationMs: a.duration_ms })),
   }));
   const last = page[page.length - 1];
   return { items, nextCursor: rows.length > opts.limit && last ? encodeCursor([new Date(last.created_at).toISOString(), last.id]) : null };

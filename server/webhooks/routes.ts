@@ -18,7 +18,7 @@ export function webhookHandlers(ctx: AppContext): Handlers {
       const p = req.principal!;
       // (the reply shows the signing secret once; a replay of it is kept sealed too)
       const r = await idempotent(sequelize, idempotencyClaim(req, 'createWebhook'), async () => {
-        const v = await createWebhook(p, req.body, allowPrivate, box);
+        const v = await createWebhook(p, req.body, allowPrivate, box, { ip: req.ip ?? null });
         return { status: 201, value: v, resourceId: v.id };
       }, box);
       sendStored(res, r);
@@ -27,14 +27,14 @@ export function webhookHandlers(ctx: AppContext): Handlers {
       res.json(await getWebhook(req.principal!, String(req.params.webhookId)));
     },
     updateWebhook: async (req, res) => {
-      res.json(await updateWebhook(req.principal!, String(req.params.webhookId), req.body, allowPrivate));
+      res.json(await updateWebhook(req.principal!, String(req.params.webhookId), req.body, allowPrivate, { ip: req.ip ?? null }));
     },
     deleteWebhook: async (req, res) => {
-      await deleteWebhook(req.principal!, String(req.params.webhookId));
+      await deleteWebhook(req.principal!, String(req.params.webhookId), { ip: req.ip ?? null });
       res.status(204).end();
     },
     sendTestWebhook: async (req, res) => {
-      res.status(202).json(await sendTestWebhook(sequelize, req.principal!, String(req.params.webhookId)));
+      res.status(202).json(await sendTestWebhook(sequelize, req.principal!, String(req.params.webhookId), { ip: req.ip ?? null }));
     },
     listWebhookDeliveries: async (req, res) => {
       res.json(await listDeliveries(sequelize, req.principal!, String(req.params.webhookId), pageOf(req.query as Record<string, unknown>)));

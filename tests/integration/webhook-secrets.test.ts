@@ -6,9 +6,10 @@ import { WebhookEndpoint } from '../../server/models';
 import { isSealed, secretBox } from '../../server/core/secret-box';
 import { randomBytes } from 'node:crypto';
 import { QueryTypes } from 'sequelize';
-import { deliverWebhook, DeliveryFailed } from '../../server/jobs/webhook-delivery';
+import pg from 'pg';
+import { deliverWebhook } from '../../server/jobs/webhook-delivery';
 import { newWebhookSecret, openWebhookSecret, resealWebhookSecrets, sendTestWebhook } from '../../server/webhooks/endpoints';
-import { buildTestApp, createTestOrganisation, type TestApp } from '../support/app';
+import { buildTestApp, createTestOrganisation, testDatabaseUrl, type TestApp } from '../support/app';
 
 let t: TestApp;
 beforeAll(() => {
@@ -42,7 +43,13 @@ describe('webhook secrets from before sealing', () => {
     const principal = { organisationId: org.id, kind: 'api-key' as const, scopes: ['webhooks:manage' as const] };
     const delivery = await sendTestWebhook(t.ctx.db.sequelize, principal as never, id);
     const otherServer = { ...t.ctx.config, secretsKey: randomBytes(32) };
-    await expect(deliverWebhook({ sequelize: t.ctx.db.sequelize, config: otherServer, logger: t.ctx.logger, secrets: secretBox(otherServer) }, delivery.id, true)).rejects.toBeInstanceOf(DeliveryFailed);
+    const jobPool = new pg.Pool({ connectionString: testDatabaseUrl(), max: 1 });
+    try {
+      const outcome = await deliverWebhook({ db: jobPool, config: otherServer, logger: t.ctx.logger, secrets: secretBox(otherServer) }, delivery.id);
+      expect(outcome).toMatchObject({ status: 'pending', statusCode: null, error: expect.stringMatching(/LOTPROOF_SECRETS_KEY/) });
+    } finally {
+      await jobPool.end();
+    }
     const attempts = await t.ctx.db.sequelize.query<{ error: string; status_code: number | null }>('SELECT error, status_code FROM webhook_attempts WHERE delivery_id = $1', { bind: [delivery.id], type: QueryTypes.SELECT });
     expect(attempts).toHaveLength(1);
     expect(attempts[0]!.error).toMatch(/LOTPROOF_SECRETS_KEY/);
