@@ -17,10 +17,24 @@ export function onDatabaseClose(hook: () => Promise<void>): void {
   closeHooks.add(hook);
 }
 
+/**
+ * A statement as the trace log shows it: Sequelize writes the values of the statements it builds
+ * into their text ('…', E'…', numbers), so each literal is replaced by `?`; statements with bind
+ * parameters ($1) never carry their values here (logQueryParameters stays off). Own code: a few
+ * regular expressions; no package the project uses masks SQL literals.
+ */
+export function statementWithoutValues(sql: string): string {
+  return sql
+    .replace(/\bE'(?:[^'\\]|\\.|'')*'/g, '?')
+    .replace(/'(?:[^']|'')*(?:'|$)/g, '?')
+    .replace(/(?<![\w$."])[-+]?\d+(?:\.\d+)?(?:e[-+]?\d+)?\b/gi, '?');
+}
+
 export function openDatabase(url: string, logger?: Logger, poolMax = 20): Database {
   const sequelize = new Sequelize(url, {
     dialect: 'postgres',
-    logging: logger ? (sql: string) => logger.trace({ sql: sql.slice(0, 500) }, 'sql') : false,
+    // At trace level only, and without the values (see statementWithoutValues).
+    logging: logger ? (sql: string) => void (logger.isLevelEnabled('trace') && logger.trace({ sql: statementWithoutValues(sql).slice(0, 500) }, 'sql')) : false,
     pool: { max: poolMax, min: 0, acquire: 10_000, idle: 10_000 },
     dialectOptions: { connectionTimeoutMillis: 3_000, application_name: 'lotproof' },
     define: { underscored: true, timestamps: false },

@@ -1,9 +1,9 @@
 // Products: the spec a lot is judged against. Editing a product never touches a stored verdict:
 // each verdict keeps a copy of the spec it was judged with.
-import { Op, UniqueConstraintError } from 'sequelize';
-import { evaluateLot, type ProductSpec } from '../../shared/engine';
+import { Op, QueryTypes, UniqueConstraintError } from 'sequelize';
+import { evaluateLot, listRulebooks, type ProductSpec } from '../../shared/engine';
 import type { components } from '../../shared/api/schema';
-import { Conflict, InvalidInput, NotFound, Refused } from '../core/errors';
+import { Conflict, InvalidInput, NotFound, Refused, TooLarge } from '../core/errors';
 import { Product } from './models';
 import type { Principal } from '../core/principal';
 import { decodeCursor, encodeCursor } from '../core/cursor';
@@ -11,6 +11,35 @@ import { decodeCursor, encodeCursor } from '../core/cursor';
 export type ProductInput = components['schemas']['ProductInput'];
 export type ProductPatch = components['schemas']['ProductPatch'];
 export type ProductView = components['schemas']['Product'];
+
+/** The parameter names each rulebook takes (its `info.parameters`); anything else is never kept. */
+const PARAMETER_NAMES: ReadonlyMap<string, ReadonlySet<string>> = new Map(listRulebooks().map((r) => [r.id, new Set(r.parameters.map((x) => x.name))]));
+
+/**
+ * A rulebook choice with only the parameters its rulebook takes. The API refuses any other name
+ * (RulebookChoice in openapi/parts/verdicts.yaml); this also keeps whatever a product stored before
+ * that check out of its answers and out of every verdict judged by it (the engine ignores such
+ * names, so no result changes).
+ */
+function ownParams(choice: { id: string; params?: Record<string, unknown> }): { id: string; params?: Record<string, unknown> } {
+  if (!choice.params || typeof choice.params !== 'object') return { id: choice.id };
+  const names = PARAMETER_NAMES.get(choice.id) ?? new Set<string>();
+  const kept = Object.entries(choice.params).filter(([name]) => names.has(name));
+  return kept.length > 0 ? { id: choice.id, params: Object.fromEntries(kept) } : { id: choice.id };
+}
+
+/**
+ * The most a product's fields take as JSON. The schema bounds every field (the largest product it
+ * admits is about 25 KiB: a 2 000-character description, 20 addresses of 254 characters, a
+ * rulebook choice of a few hundred bytes); this is the backstop should a bound ever be loosened,
+ * since a product's spec is copied into every verdict judged by it.
+ */
+export const PRODUCT_MAX_BYTES = 32 * 1024;
+
+function checkSize(fields: Record<string, unknown>): void {
+  const bytes = Buffer.byteLength(JSON.stringify(fields), 'utf8');
+  if (bytes > PRODUCT_MAX_BYTES) throw new TooLarge(`the product takes ${bytes} bytes as JSON; at most ${PRODUCT_MAX_BYTES} are accepted`);
+}
 
 export function productView(p: Product): ProductView {
   return {
@@ -24,7 +53,7 @@ export function productView(p: Product): ProductView {
     fixedTare: p.fixedTare,
     tareUnit: p.tareUnit as ProductView['tareUnit'],
     density: p.density,
-    rulebook: p.rulebook as ProductView['rulebook'],
+    rulebook: ownParams(p.rulebook) as ProductView['rulebook'],
     alertRecipients: p.alertRecipients,
     createdAt: p.createdAt.toISOString(),
     updatedAt: p.updatedAt.toISOString(),
@@ -33,8 +62,9 @@ export function productView(p: Product): ProductView {
 
 /** The engine's view of a product: only the fields that judge a lot, nulls left out. */
 export function specOf(p: Pick<ProductView, 'nominalQuantity' | 'unit' | 'tareMode' | 'fixedTare' | 'tareUnit' | 'density' | 'rulebook'>): ProductSpec {
+  const rulebook = ownParams(p.rulebook as { id: string; params?: Record<string, unknown> });
   const spec: ProductSpec = { nominalQuantity: p.nominalQuantity, unit: p.unit, tareMode: p.tareMode, rulebook: { id: p.rulebook.id } };
-  if (p.rulebook.params && Object.keys(p.rulebook.params).length > 0) spec.rulebook.params = p.rulebook.params as ProductSpec['rulebook']['params'];
+  if (rulebook.params) spec.rulebook.params = rulebook.params as ProductSpec['rulebook']['params'];
   if (p.fixedTare !== null && p.fixedTare !== undefined) spec.fixedTare = p.fixedTare;
   if (p.tareUnit !== null && p.tareUnit !== undefined) spec.tareUnit = p.tareUnit;
   if (p.density !== null && p.density !== undefined) spec.density = p.density;
@@ -64,6 +94,43 @@ function normaliseRecipients(list: string[] | undefined): string[] {
   return [...new Set((list ?? []).map((e) => e.trim().toLowerCase()))];
 }
 
+/**
+ * Names that no mail can reach: the top-level domains .example and .invalid, reserved by RFC 2606
+ * §2 for documentation and for names that are obviously invalid. The API's examples and the demo
+ * packer use .example addresses; an alert to one goes nowhere, so allowing them relays nothing.
+ * (.test and .localhost are left out on purpose: a site may route those somewhere.)
+ */
+const UNREACHABLE_DOMAIN = /\.(example|invalid)$/;
+
+/**
+ * Alert recipients are people of the organisation: the address of one of its active users (or an
+ * address under a name that reaches no one, above). Anything else would let whoever may edit a
+ * product have the server mail verdicts to any address — an open relay, and a way around the
+ * `verdicts:read` scope. A refused address is named by its place in the list as sent.
+ *
+ * The users table is the identity area's; products may not import that area (DEVELOPERS.md,
+ * "Map"), so this is one set-based read of it by bind parameters, scoped by the organisation.
+ */
+async function checkRecipients(organisationId: string, sent: string[] | undefined): Promise<void> {
+  if (!sent || sent.length === 0) return;
+  const wanted = sent.map((e) => e.trim().toLowerCase());
+  const rows = await Product.sequelize!.query<{ email: string }>(
+    'SELECT email FROM users WHERE organisation_id = $1 AND removed_at IS NULL AND email = ANY($2::text[])',
+    { bind: [organisationId, wanted], type: QueryTypes.SELECT },
+  );
+  const members = new Set(rows.map((r) => r.email));
+  const refused = wanted
+    .map((email, i) => ({ email, i }))
+    .filter(({ email }) => !members.has(email) && !UNREACHABLE_DOMAIN.test(email.slice(email.lastIndexOf('@') + 1)));
+  if (refused.length > 0) {
+    throw new Refused(
+      'recipient-not-member',
+      `alert recipients must be users of your organisation; ${refused.length === 1 ? 'this address is' : 'these addresses are'} not: ${refused.map((r) => r.email).join(', ')}`,
+      refused.map(({ i }) => ({ field: `/alertRecipients/${i}`, detail: 'not the address of a user of your organisation' })),
+    );
+  }
+}
+
 function skuTaken(sku: string): Conflict {
   return new Conflict(`an active product with SKU ${JSON.stringify(sku)} already exists`, 'sku-taken');
 }
@@ -79,10 +146,12 @@ export async function createProduct(principal: Principal, input: ProductInput): 
     fixedTare: input.fixedTare ?? null,
     tareUnit: input.tareUnit ?? null,
     density: input.density ?? null,
-    rulebook: input.rulebook,
+    rulebook: ownParams(input.rulebook) as ProductInput['rulebook'],
     alertRecipients: normaliseRecipients(input.alertRecipients),
   };
+  checkSize(fields);
   checkSpec(specOf(fields));
+  await checkRecipients(principal.organisationId, input.alertRecipients);
   try {
     const p = await Product.create({ ...fields, organisationId: principal.organisationId });
     return productView(p);
@@ -105,8 +174,13 @@ export async function getProduct(principal: Principal, id: string): Promise<Prod
 export async function updateProduct(principal: Principal, id: string, patch: ProductPatch): Promise<ProductView> {
   const p = await findActive(principal.organisationId, id);
   const next = { ...productView(p), ...patch } as ProductView;
+  if (patch.rulebook) next.rulebook = ownParams(patch.rulebook) as ProductView['rulebook'];
   if (patch.alertRecipients) next.alertRecipients = normaliseRecipients(patch.alertRecipients);
+  checkSize(next);
   checkSpec(specOf(next));
+  // Only the list as sent is checked: a change of another field is not refused because a user
+  // named before has since left (their address stays until the list is changed).
+  await checkRecipients(principal.organisationId, patch.alertRecipients);
   try {
     await p.update({
       sku: next.sku,
@@ -134,6 +208,23 @@ export async function archiveProduct(principal: Principal, id: string): Promise<
   await p.update({ archivedAt: new Date() });
 }
 
+const UUID = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/;
+/** An instant as `Date.prototype.toISOString` writes it for years 0001–9999 (what encodeCursor was given). */
+const ISO_INSTANT = /^\d{4}-\d{2}-\d{2}T\d{2}:\d{2}:\d{2}\.\d{3}Z$/;
+
+/**
+ * A products cursor is [createdAt as toISOString, id]. A forged one must never reach PostgreSQL as
+ * something it refuses (that would be a 5xx): anything else is a 400 naming the cursor.
+ */
+function decodeProductCursor(cursor: string): { at: Date; id: string } {
+  const [iso, id] = decodeCursor(cursor, 2);
+  const at = typeof iso === 'string' && ISO_INSTANT.test(iso) ? new Date(iso) : null;
+  if (!at || Number.isNaN(at.getTime()) || at.toISOString() !== iso || iso.startsWith('0000') || typeof id !== 'string' || !UUID.test(id)) {
+    throw new InvalidInput('the cursor is not one this API returned', [{ field: '/cursor', detail: 'not a valid cursor' }]);
+  }
+  return { at, id };
+}
+
 export async function listProducts(
   principal: Principal,
   opts: { limit: number; cursor?: string; sku?: string },
@@ -141,9 +232,8 @@ export async function listProducts(
   const where: Record<string | symbol, unknown> = { organisationId: principal.organisationId, archivedAt: null };
   if (opts.sku) where.sku = opts.sku;
   if (opts.cursor) {
-    const c = decodeCursor(opts.cursor, 2);
-    const at = new Date(c[0]!);
-    where[Op.or] = [{ createdAt: { [Op.lt]: at } }, { createdAt: at, id: { [Op.lt]: c[1] } }];
+    const { at, id } = decodeProductCursor(opts.cursor);
+    where[Op.or] = [{ createdAt: { [Op.lt]: at } }, { createdAt: at, id: { [Op.lt]: id } }];
   }
   const rows = await Product.findAll({ where, order: [['createdAt', 'DESC'], ['id', 'DESC']], limit: opts.limit + 1 });
   const page = rows.slice(0, opts.limit);

@@ -1,5 +1,7 @@
 // Exports: CSV (one summary row per verdict, for spreadsheets) and NDJSON (one sealed document per
-// line, for the offline verifier). Oldest first, streamed page by page.
+// line, for the offline verifier). Oldest first, streamed page by page, in chunks of about 64 KiB,
+// giving other requests a turn at least every 10 ms of work so /healthz and lots are never held up.
+import { setImmediate as nextTurn } from 'node:timers/promises';
 import { QueryTypes, type Sequelize } from 'sequelize';
 import type { Principal } from '../core/principal';
 import { filterSql, type VerdictFilter } from './stored-verdicts';
@@ -19,6 +21,39 @@ function csvField(v: unknown): string {
   return /[",\r\n]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s;
 }
 
+/** The parts of the stored result and spec a CSV row shows (null when absent). */
+interface CsvNumbers {
+  mean: number | null;
+  standard_deviation: number | null;
+  unit: string | null;
+  nominal_quantity: number | null;
+}
+
+/**
+ * Records larger than this (in bytes, or characters when read) are read and sent in slices of this
+ * many characters: decoding a whole 7 MB record (a lot of a million measurements) into one string
+ * held the event loop for 60–120 ms; a slice costs a few milliseconds.
+ */
+const RECORD_SLICE_CHARS = 512 * 1024;
+
+/** A stored record's text, slice by slice (verdict rows never change, so the slices are of one record). */
+async function* recordSlices(sequelize: Sequelize, organisationId: string, sequence: number): AsyncGenerator<string> {
+  for (let from = 1; ; from += RECORD_SLICE_CHARS) {
+    const [slice] = await sequelize.query<{ part: string }>(
+      'SELECT substr(record, $3, $4) AS part FROM verdicts WHERE organisation_id = $1 AND sequence = $2',
+      { bind: [organisationId, sequence, from, RECORD_SLICE_CHARS], type: QueryTypes.SELECT },
+    );
+    const part = slice?.part ?? '';
+    if (part) yield part;
+    if (part.length < RECORD_SLICE_CHARS) return;
+  }
+}
+
+/** Text gathered before it is handed on as one chunk (fewer, larger writes than a row each). */
+const CHUNK_CHARS = 64 * 1024;
+/** Work done without a break before other requests get a turn. */
+const SLICE_MS = 10;
+
 export async function* exportVerdicts(
   sequelize: Sequelize,
   principal: Principal,
@@ -28,29 +63,51 @@ export async function* exportVerdicts(
   const { where, bind } = filterSql(principal.organisationId, filter);
   if (format === 'csv') yield CSV_COLUMNS.join(',') + '\r\n';
   let after = 0;
-  const page = format === 'csv' ? 1000 : 50;
+  const page = format === 'csv' ? 500 : 50;
   for (;;) {
+    // A CSV row needs four numbers of the stored result and spec, so only they are read (as jsonb,
+    // parsed as before): parsing each whole result held the event loop for 50 ms a page.
     const cols =
       format === 'csv'
         ? `id, sequence, recorded_at, product_sku, product_name, lot_code, line, packed_at, lot_size, testing, measurement_count,
-           decision, result, product_spec, rulebook_id, rulebook_version, engine_version, first_sample_verdict_id, seal, previous_seal`
-        : 'sequence, seal, signature, kid, record';
-    const rows = await sequelize.query<VerdictRow>(
+           decision, result #> '{statistics,descriptive,mean}' AS mean, result #> '{statistics,descriptive,standardDeviation}' AS standard_deviation,
+           product_spec -> 'unit' AS unit, product_spec -> 'nominalQuantity' AS nominal_quantity,
+           rulebook_id, rulebook_version, engine_version, first_sample_verdict_id, seal, previous_seal`
+        : // a big record is left out here and read in slices below (octet_length reads no record)
+          `sequence, seal, signature, kid, CASE WHEN octet_length(record) <= ${RECORD_SLICE_CHARS} THEN record END AS record`;
+    const rows = await sequelize.query<VerdictRow & CsvNumbers>(
       `SELECT ${cols} FROM verdicts WHERE ${where} AND sequence > $${bind.length + 1} ORDER BY sequence LIMIT $${bind.length + 2}`,
       { bind: [...bind, after, page], type: QueryTypes.SELECT },
     );
+    let chunk = '';
+    let slice = performance.now();
     for (const r of rows) {
-      if (format === 'ndjson') {
-        yield sealedDocumentText({ seal: r.seal, signature: r.signature, kid: r.kid, record: r.record! }) + '\n';
+      if (format === 'ndjson' && r.record === null) {
+        // The document around the record, as sealedDocumentText writes it, and the record between in slices.
+        const [head, tail] = sealedDocumentText({ seal: r.seal, signature: r.signature, kid: r.kid, record: '\u0000' }).split('\u0000');
+        yield chunk + head;
+        chunk = '';
+        for await (const part of recordSlices(sequelize, principal.organisationId, Number(r.sequence))) yield part;
+        chunk = tail + '\n';
+      } else if (format === 'ndjson') {
+        chunk += sealedDocumentText({ seal: r.seal, signature: r.signature, kid: r.kid, record: r.record! }) + '\n';
       } else {
-        const d = r.result.statistics.descriptive as { mean?: number; standardDeviation?: number | null };
-        yield [
+        chunk += [
           r.sequence, r.id, r.recorded_at, r.product_sku, r.product_name, r.lot_code, r.line, r.packed_at, r.lot_size, r.testing,
-          r.measurement_count, r.decision, d.mean, d.standardDeviation, r.product_spec.unit, r.product_spec.nominalQuantity,
+          r.measurement_count, r.decision, r.mean, r.standard_deviation, r.unit, r.nominal_quantity,
           `${r.rulebook_id}@${r.rulebook_version}`, r.engine_version, r.first_sample_verdict_id, r.seal, r.previous_seal,
         ].map(csvField).join(',') + '\r\n';
       }
+      if (chunk.length >= CHUNK_CHARS) {
+        yield chunk;
+        chunk = '';
+      }
+      if (performance.now() - slice >= SLICE_MS) {
+        await nextTurn();
+        slice = performance.now();
+      }
     }
+    if (chunk) yield chunk;
     if (rows.length < page) return;
     after = Number(rows[rows.length - 1]!.sequence);
   }
