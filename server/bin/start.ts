@@ -2,7 +2,10 @@
 // PostgreSQL is installed, starts a local cluster under .data/postgres on 127.0.0.1 (under
 // /var/lib/lotproof when the postgres user cannot reach .data), builds the console if needed,
 // migrates, seeds the demo packer, serves API, docs and console on one port, and stops everything
-// again on Ctrl-C or SIGTERM, at any moment of the start-up too.
+// again on Ctrl-C or SIGTERM, at any moment of the start-up too. With LOTPROOF_PROCESSES=N (N > 1)
+// it prepares everything once, then serves from N worker processes sharing the port (node:cluster),
+// and starts a worker again whenever one exits unexpectedly.
+import cluster, { type Worker } from 'node:cluster';
 import { existsSync, mkdirSync } from 'node:fs';
 import { join } from 'node:path';
 import { loadConfig, ConfigError } from '../config';
@@ -11,6 +14,10 @@ import { ensureDebianPackages, MissingPackagesError } from '../platform/debian-p
 import { startCluster, type RunningCluster } from '../platform/embedded-postgres';
 import { startServer } from '../server';
 import { CONSOLE_DIST } from '../app';
+import { openDatabase } from '../db/database';
+import { migrate } from '../db/migrate';
+import { secretBox } from '../core/secret-box';
+import { currentSigningKey } from '../verdicts/signing-keys';
 import { seedDemo } from '../demo/seed';
 import '../demo/users';
 import '../demo/lots';
@@ -85,18 +92,98 @@ async function main(): Promise<void> {
   }
   if (signalled) return;
   const smtp = mailCatcher ? { ...config.smtp, host: mailCatcher.host, port: mailCatcher.port } : config.smtp;
-  const running = await startServer({ ...config, databaseUrl, smtp }, logger);
+  if (config.processes > 1) return serveWithWorkers({ ...config, databaseUrl, smtp }, logger, mailCatcher);
+  const running = await startServer({ ...config, databaseUrl, smtp }, logger, { onFatal: stopEverything });
   started.push(() => running.stop().catch((err) => logger.error({ err }, 'error while stopping')));
   if (signalled) return;
   const demo = config.seedDemo ? await seedDemo(running.ctx) : null;
   if (signalled) return;
-  console.log(`\nLotproof is running.\n  console  ${running.url}/\n  API docs ${running.url}/docs\n  API      ${running.url}/v1\n  ready    ${running.url}/readyz`);
-  if (mailCatcher) console.log(`  mail     captured locally (SMTP 127.0.0.1:${mailCatcher.port}); read it at ${running.url}/dev/mailbox`);
-  if (demo) console.log(demo.banner);
+  announce(running.url, mailCatcher, demo?.banner ?? null);
+}
+
+function announce(url: string, mailCatcher: RunningSmtpFake | null, banner: string | null, processes = 1): void {
+  console.log(`\nLotproof is running${processes > 1 ? ` (${processes} processes)` : ''}.\n  console  ${url}/\n  API docs ${url}/docs\n  API      ${url}/v1\n  ready    ${url}/readyz`);
+  if (mailCatcher) console.log(`  mail     captured locally (SMTP 127.0.0.1:${mailCatcher.port}); read it at ${url}/dev/mailbox`);
+  else if (!loadConfig().development) console.log('  mode     production: e-mail goes to SMTP_HOST, no captured mailbox; for a local trial with one, run `npm run dev`');
+  if (banner) console.log(banner);
   console.log('\nPress Ctrl-C to stop.');
 }
 
-main().catch(async (err) => {
+type ReadyConfig = ReturnType<typeof loadConfig> & { databaseUrl: string };
+
+/**
+ * N API processes on one port: this process migrates, creates the key files and seeds the demo
+ * once, then forks the workers (each a whole server with its own pool and job workers) and keeps
+ * them running. A worker that exits while we are not stopping is started again.
+ */
+async function serveWithWorkers(config: ReadyConfig, logger: ReturnType<typeof createLogger>, mailCatcher: RunningSmtpFake | null): Promise<void> {
+  // Done once here, so the workers never race to create a key file or run a migration.
+  currentSigningKey(config);
+  secretBox(config);
+  const db = openDatabase(config.databaseUrl, logger, 4);
+  started.push(() => db.close());
+  await migrate(db.sequelize, (m) => logger.debug(m));
+  const demo = config.seedDemo ? await seedDemo({ config, db, logger }) : null;
+  if (signalled) return;
+  const env = {
+    DATABASE_URL: config.databaseUrl,
+    SMTP_HOST: config.smtp.host,
+    SMTP_PORT: String(config.smtp.port),
+    LOTPROOF_SMTP_FAKE: 'false',
+    LOTPROOF_SEED_DEMO: 'false',
+    LOTPROOF_PROCESSES: '1',
+  };
+  const workers = new Set<Worker>();
+  const fork = (): Promise<string> =>
+    new Promise((resolve, reject) => {
+      const worker = cluster.fork(env);
+      workers.add(worker);
+      worker.on('message', (m: { ready?: string }) => m.ready && resolve(m.ready));
+      worker.once('exit', (code, signal) => {
+        workers.delete(worker);
+        reject(new Error(`a worker exited during its start (${signal ?? code})`));
+        if (stopping || signalled) return;
+        logger.error({ code, signal }, 'an API process exited; starting another');
+        setTimeout(() => {
+          if (!stopping && !signalled) void fork().catch((err) => logger.error({ err: { message: err.message } }, 'restart failed'));
+        }, 1_000).unref();
+      });
+    });
+  started.push(async () => {
+    await Promise.all([...workers].map((w) => new Promise<void>((resolve) => {
+      w.once('exit', () => resolve());
+      w.process.kill('SIGTERM');
+    })));
+  });
+  const urls = await Promise.all(Array.from({ length: config.processes }, () => fork()));
+  if (signalled) return;
+  announce(urls[0]!, mailCatcher, demo?.banner ?? null, config.processes);
+  // The catcher lives in this process; the workers' /dev/mailbox reads their own (empty) list.
+  if (mailCatcher) console.log('  (the development mailbox shows captured mail only with LOTPROOF_PROCESSES=1)');
+}
+
+/** A worker of serveWithWorkers: one API server, stopped by SIGTERM (or the terminal's Ctrl-C). */
+async function runWorker(): Promise<void> {
+  const config = loadConfig();
+  const logger = createLogger(config.logLevel);
+  const running = await startServer({ ...config, databaseUrl: config.databaseUrl! }, logger);
+  let done = false;
+  const stop = () => {
+    if (done) return;
+    done = true;
+    void running.stop().finally(() => process.exit(0));
+  };
+  process.on('SIGTERM', stop);
+  process.on('SIGINT', stop);
+  process.send?.({ ready: running.url });
+}
+
+if (cluster.isWorker) {
+  runWorker().catch((err) => {
+    console.error(err);
+    process.exit(1);
+  });
+} else main().catch(async (err) => {
   // A step cut short by Ctrl-C may fail (its database stopped under it) before the signal handler has
   // run: give it the chance to, and leave the exit to it.
   await new Promise((r) => setTimeout(r, 100));

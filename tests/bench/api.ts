@@ -19,10 +19,11 @@ import { destroyCluster, freePort, startCluster, type RunningCluster } from '../
 
 const DURATION = Number(process.env.BENCH_SECONDS ?? 10);
 const CONNECTIONS = 32;
-// Knobs for investigating (all optional): BENCH_ONLY=bare,floor,api,big runs a subset; BENCH_CPU_PROF=<dir>
+// Knobs for investigating (all optional): BENCH_ONLY=bare,floor,api,api2,big runs a subset (api2: the
+// same POST to LOTPROOF_PROCESSES=2, two API processes on one port); BENCH_CPU_PROF=<dir>
 // writes a V8 CPU profile of the API process there; BENCH_WAITS=1 tallies PostgreSQL wait events
 // during the Lotproof run; BENCH_NODE_ARGS="--flag …" starts the API process with those Node flags.
-const ONLY = new Set((process.env.BENCH_ONLY ?? 'bare,floor,api,big').split(','));
+const ONLY = new Set((process.env.BENCH_ONLY ?? 'bare,floor,api,api2,big').split(','));
 const CPU_PROF = process.env.BENCH_CPU_PROF ?? '';
 const children: ChildProcess[] = [];
 let cluster: RunningCluster | null = null;
@@ -41,7 +42,8 @@ function startChild(script: string, env: Record<string, string>, nodeArgs: strin
   });
 }
 
-/** CPU seconds (user + system) used so far by the server process and by all PostgreSQL processes. */
+/** CPU seconds (user + system) used so far by the server process (with its worker processes, when it
+ *  runs several) and by all PostgreSQL processes. */
 function cpuSeconds(serverPid: number | undefined): { server: number; postgres: number } {
   const ticks = (pid: string) => {
     try {
@@ -60,7 +62,15 @@ function cpuSeconds(serverPid: number | undefined): { server: number; postgres: 
     const master = s.ppid !== '1' && readFileSync(`/proc/${s.ppid}/cmdline`, 'utf8').includes(port) ? s.ppid : null;
     if (master || readFileSync(`/proc/${pid}/cmdline`, 'utf8').includes(`-p\0${port}`)) postgres += s.t;
   }
-  return { server: serverPid ? (ticks(String(serverPid))?.t ?? 0) : 0, postgres };
+  let server = 0;
+  if (serverPid) {
+    server = ticks(String(serverPid))?.t ?? 0;
+    for (const pid of readdirSync('/proc').filter((d) => /^\d+$/.test(d))) {
+      const s = ticks(pid);
+      if (s && s.ppid === String(serverPid) && s.comm === 'node') server += s.t;
+    }
+  }
+  return { server, postgres };
 }
 
 async function run(url: string, headers: Record<string, string>, body: string | null, title: string, serverPid?: number) {
@@ -132,11 +142,14 @@ async function main() {
   const apiPort = await freePort();
   const big = 10_000_000 << 3;
   const bareChild = await startChild('tests/bench/bare-server.ts', { DATABASE_URL: databaseUrl, PORT: String(barePort) });
-  const apiChild = await startChild('server/bin/start.ts', {
-    DATABASE_URL: databaseUrl, PORT: String(apiPort), NODE_ENV: 'production', LOG_LEVEL: 'warn', LOTPROOF_SEED_DEMO: 'false',
+  const apiEnv = {
+    DATABASE_URL: databaseUrl, NODE_ENV: 'production', LOG_LEVEL: 'warn', LOTPROOF_SEED_DEMO: 'false',
     LOTPROOF_DATA_DIR: join(dir, 'data'), LOTPROOF_BODY_LIMIT_MB: '64', LOTPROOF_RUN_JOBS: 'false',
     LOTPROOF_RATE_LIMIT_PER_KEY: String(big >> 3), LOTPROOF_RATE_LIMIT_PER_ORG: String(big >> 3), LOTPROOF_RATE_LIMIT_PER_IP: String(big >> 3),
-  }, [...(process.env.BENCH_NODE_ARGS ? process.env.BENCH_NODE_ARGS.split(' ') : []), ...(CPU_PROF ? ['--cpu-prof', '--cpu-prof-dir', CPU_PROF] : [])]);
+  };
+  const apiChild = await startChild('server/bin/start.ts', { ...apiEnv, PORT: String(apiPort) }, [...(process.env.BENCH_NODE_ARGS ? process.env.BENCH_NODE_ARGS.split(' ') : []), ...(CPU_PROF ? ['--cpu-prof', '--cpu-prof-dir', CPU_PROF] : [])]);
+  const api2Port = await freePort();
+  const api2Child = ONLY.has('api2') ? await startChild('server/bin/start.ts', { ...apiEnv, PORT: String(api2Port), LOTPROOF_PROCESSES: '2' }) : null;
 
   const lot = {
     sku: 'BENCH-500G', lotCode: 'B-1', line: 'Bench line', lotSize: 2400, testing: 'non-destructive', measurementUnit: 'g', measurementBasis: 'net',
@@ -158,6 +171,11 @@ async function main() {
   const waits = process.env.BENCH_WAITS ? sampleWaits(db) : null;
   const api = ONLY.has('api') ? await run(`http://127.0.0.1:${apiPort}/v1/lots`, { 'content-type': 'application/json', authorization: `Bearer ${secret}` }, body, 'Lotproof POST /v1/lots (sealed)', apiChild.pid) : null;
   if (waits) console.log(`PostgreSQL wait events during the run (samples): ${JSON.stringify(await waits.stop())}`);
+  // The same POST to two API processes sharing one port (LOTPROOF_PROCESSES=2), right after the one-process run.
+  const api2 = api2Child
+    ? await run(`http://127.0.0.1:${api2Port}/v1/lots`, { 'content-type': 'application/json', authorization: `Bearer ${secret}` }, body, 'Lotproof POST, 2 processes', api2Child.pid)
+    : null;
+  if (api && api2) console.log(`ratio 2 processes / 1 process: ${(api2.rate / api.rate).toFixed(2)} ×  (on ${cpus().length} cores shared with PostgreSQL and the load generator)`);
   if (bare && floor) console.log(`ratio same stack without a lot / bare: ${((100 * floor.rate) / bare.rate).toFixed(0)} %  (what any route of this stack can reach here)`);
   if (bare && api) console.log(`ratio Lotproof / bare: ${((100 * api.rate) / bare.rate).toFixed(0)} %  (target ≥ 60 %)`);
 
