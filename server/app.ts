@@ -98,7 +98,8 @@ export function createApp(ctx: AppContext): Express {
     swaggerUi.serve,
     swaggerUi.setup(doc, {
       customSiteTitle: 'Lotproof API',
-      swaggerOptions: { persistAuthorization: true, tryItOutEnabled: true, displayRequestDuration: true },
+      // persistAuthorization off: a pasted API key must not outlive the page in the browser's storage
+      swaggerOptions: { persistAuthorization: false, tryItOutEnabled: true, displayRequestDuration: true },
     }),
   );
 

@@ -50,6 +50,9 @@ describe('the interactive docs', () => {
     const body = await op.locator('.live-responses-table tr.response .response-col_description pre').first().textContent();
     expect(body).toMatch(/"seal"/);
     expect(body).toMatch(/"decision"/);
+    // The pasted key lives only in the page: nothing in the browser's storage keeps it (issue 14).
+    const stored = await page.evaluate(() => JSON.stringify({ ...localStorage }) + JSON.stringify({ ...sessionStorage }));
+    expect(stored).not.toContain(apiKey);
     await screenshot(page, 'docs-try-it-out');
 
     const { page: console } = await h.open();

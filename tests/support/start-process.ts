@@ -35,7 +35,8 @@ export function startProduct(cwd: string, extraEnv: Record<string, string | unde
     if (v === undefined) delete env[k];
     else env[k] = v;
   }
-  const proc = spawn('npx', ['tsx', 'server/bin/start.ts', ...args], { cwd, env, stdio: ['ignore', 'pipe', 'pipe'], detached: true });
+  // Exactly the README's command (npm start runs node with the tsx loader, no signal-relaying wrapper).
+  const proc = spawn('npm', ['start', '--', ...args], { cwd, env, stdio: ['ignore', 'pipe', 'pipe'], detached: true });
   let out = '';
   proc.stdout!.on('data', (d) => (out += d));
   proc.stderr!.on('data', (d) => (out += d));
@@ -77,8 +78,8 @@ export function startProduct(cwd: string, extraEnv: Record<string, string | unde
     ctrlC: () => signalGroup('SIGINT'),
     kill9: () => signalGroup('SIGKILL'),
     signalServer: (sig) => {
-      // tsx's CLI runs the server as a child node with its loader: the one whose command line names loader.mjs.
-      const server = nodeProcesses().filter((pid) => readFileSync(`/proc/${pid}/cmdline`, 'latin1').includes('loader.mjs'));
+      // npm runs the server as a child node with the tsx loader: the node whose command line names the start script.
+      const server = nodeProcesses().filter((pid) => readFileSync(`/proc/${pid}/cmdline`, 'latin1').includes('--import\0tsx\0server/bin/start.ts'));
       if (server.length !== 1) throw new Error(`expected one server process in the group, found ${server.length}`);
       process.kill(server[0]!, sig);
     },
@@ -90,7 +91,11 @@ export function startProduct(cwd: string, extraEnv: Record<string, string | unde
     gone: async (timeoutMs = 30_000) => {
       const deadline = Date.now() + timeoutMs;
       while (groupAlive()) {
-        if (Date.now() > deadline) throw new Error(`the start command's processes were still running ${timeoutMs} ms after the signal:\n${out}`);
+        if (Date.now() > deadline) {
+          // name what is left, so a failure says which process did not stop
+          const left = spawnSync('ps', ['-o', 'pid,stat,etime,args', '-g', String(pgid)], { encoding: 'utf8' }).stdout;
+          throw new Error(`the start command's processes were still running ${timeoutMs} ms after the signal:\n${left}\n${out}`);
+        }
         await sleep(100);
       }
     },
