@@ -4,10 +4,13 @@
 import { randomBytes, randomUUID } from 'node:crypto';
 import { isIP } from 'node:net';
 import ipaddr from 'ipaddr.js';
-import { QueryTypes, type Sequelize } from 'sequelize';
+import { QueryTypes, type Sequelize, type Transaction } from 'sequelize';
 import type { components } from '../../shared/api/schema';
 import { InvalidInput, NotAllowed, NotFound, TooMany } from '../core/errors';
 import { WebhookEndpoint } from './models';
+
+/** One transaction on the models' database (a change and its audit event). */
+const inTransaction = <T>(work: (t: Transaction) => Promise<T>): Promise<T> => WebhookEndpoint.sequelize!.transaction(work);
 import { decodeCursor, encodeCursor } from '../core/cursor';
 import { ledgerEvents } from '../verdicts/ledger';
 import { TEST_EVENT } from '../verdicts/notifications';
@@ -127,8 +130,9 @@ function auditedUrl(url: string): string {
   }
 }
 
-function audit(principal: Principal, from: RequestOrigin, action: AuditAction, endpointId: string, details: Record<string, unknown>): Promise<void> {
-  return recordAudit(principal.organisationId, { principal, ip: from.ip ?? null }, action, { kind: 'webhook', id: endpointId }, details);
+/** The change's audit event, written in the change's own transaction: both are stored, or neither. */
+function audit(principal: Principal, from: RequestOrigin, action: AuditAction, endpointId: string, details: Record<string, unknown>, transaction: Transaction): Promise<void> {
+  return recordAudit(principal.organisationId, { principal, ip: from.ip ?? null }, action, { kind: 'webhook', id: endpointId }, details, transaction);
 }
 
 /** A test event per endpoint at most this often (a test is a POST to a URL the caller chose). */
@@ -198,16 +202,22 @@ export async function createWebhook(principal: Principal, input: WebhookInput, a
   checkUrl(input.url, allowPrivate);
   const id = randomUUID();
   const secret = newWebhookSecret();
-  const e = await WebhookEndpoint.create({
-    id,
-    organisationId: principal.organisationId,
-    url: input.url,
-    events: [...new Set(input.events)],
-    description: input.description ?? '',
-    enabled: input.enabled ?? true,
-    secret: box.seal(secret, webhookSecretContext(id)),
+  const e = await inTransaction(async (transaction) => {
+    const made = await WebhookEndpoint.create(
+      {
+        id,
+        organisationId: principal.organisationId,
+        url: input.url,
+        events: [...new Set(input.events)],
+        description: input.description ?? '',
+        enabled: input.enabled ?? true,
+        secret: box.seal(secret, webhookSecretContext(id)),
+      },
+      { transaction },
+    );
+    await audit(principal, from, 'webhook.created', made.id, { url: auditedUrl(made.url), events: made.events, enabled: made.enabled }, transaction);
+    return made;
   });
-  await audit(principal, from, 'webhook.created', e.id, { url: auditedUrl(e.url), events: e.events, enabled: e.enabled });
   return { ...view(e), secret };
 }
 
@@ -231,26 +241,40 @@ export async function updateWebhook(principal: Principal, id: string, patch: Web
   if (patch.url !== undefined || patch.events !== undefined || patch.enabled === true) mustReadVerdicts(principal, 'Changing where or which events a webhook endpoint sends, or switching it on,');
   if (patch.url) checkUrl(patch.url, allowPrivate);
   const changed = (['url', 'events', 'description', 'enabled'] as const).filter((k) => patch[k] !== undefined);
-  await e.update({
-    ...(patch.url ? { url: patch.url } : {}),
-    ...(patch.events ? { events: [...new Set(patch.events)] } : {}),
-    ...(patch.description !== undefined ? { description: patch.description } : {}),
-    ...(patch.enabled !== undefined ? { enabled: patch.enabled } : {}),
-    updatedAt: new Date(),
-  });
-  await audit(principal, from, 'webhook.updated', e.id, {
-    changed,
-    ...(patch.url ? { url: auditedUrl(e.url) } : {}),
-    ...(patch.events ? { events: e.events } : {}),
-    ...(patch.enabled !== undefined ? { enabled: e.enabled } : {}),
+  await inTransaction(async (transaction) => {
+    await e.update(
+      {
+        ...(patch.url ? { url: patch.url } : {}),
+        ...(patch.events ? { events: [...new Set(patch.events)] } : {}),
+        ...(patch.description !== undefined ? { description: patch.description } : {}),
+        ...(patch.enabled !== undefined ? { enabled: patch.enabled } : {}),
+        updatedAt: new Date(),
+      },
+      { transaction },
+    );
+    await audit(
+      principal,
+      from,
+      'webhook.updated',
+      e.id,
+      {
+        changed,
+        ...(patch.url ? { url: auditedUrl(e.url) } : {}),
+        ...(patch.events ? { events: e.events } : {}),
+        ...(patch.enabled !== undefined ? { enabled: e.enabled } : {}),
+      },
+      transaction,
+    );
   });
   return view(e);
 }
 
 export async function deleteWebhook(principal: Principal, id: string, from: RequestOrigin = {}): Promise<void> {
   const e = await find(principal, id);
-  await e.update({ deletedAt: new Date(), enabled: false });
-  await audit(principal, from, 'webhook.deleted', e.id, { url: auditedUrl(e.url) });
+  await inTransaction(async (transaction) => {
+    await e.update({ deletedAt: new Date(), enabled: false }, { transaction });
+    await audit(principal, from, 'webhook.deleted', e.id, { url: auditedUrl(e.url) }, transaction);
+  });
 }
 
 /** How the log shows an attempt written before its POST and not completed (yet). */
@@ -272,32 +296,34 @@ export async function sendTestWebhook(sequelize: Sequelize, principal: Principal
   const e = await find(principal, id);
   // Raw SQL beside the model here: the limit is one compare-and-set on the endpoint's last test,
   // so concurrent requests (or processes) cannot both pass it.
-  const [allowed] = await sequelize.query(
-    `UPDATE webhook_endpoints SET last_test_at = now()
-      WHERE id = $1 AND organisation_id = $2 AND (last_test_at IS NULL OR last_test_at <= now() - make_interval(secs => $3))
-     RETURNING id`,
-    { bind: [e.id, principal.organisationId, TEST_EVENT_INTERVAL_SECONDS] },
-  );
-  if ((allowed as unknown[]).length === 0) {
-    const [rows] = await sequelize.query(
-      'SELECT greatest(1, ceil(extract(epoch FROM last_test_at + make_interval(secs => $2) - now())))::int AS wait FROM webhook_endpoints WHERE id = $1',
-      { bind: [e.id, TEST_EVENT_INTERVAL_SECONDS] },
-    );
-    const wait = (rows as Array<{ wait: number }>)[0]?.wait ?? TEST_EVENT_INTERVAL_SECONDS;
-    throw new TooMany(`A test event went to this endpoint less than ${TEST_EVENT_INTERVAL_SECONDS} s ago; send the next one in ${wait} s.`, wait);
-  }
   const deliveryId = randomUUID();
   const now = new Date();
-  const payload = JSON.stringify({
-    type: TEST_EVENT,
-    timestamp: now.toISOString(),
-    data: { endpointId: e.id, message: 'A test event from Lotproof: your endpoint is reachable and can check the signature.' },
+  await sequelize.transaction(async (transaction) => {
+    const [allowed] = await sequelize.query(
+      `UPDATE webhook_endpoints SET last_test_at = now()
+        WHERE id = $1 AND organisation_id = $2 AND (last_test_at IS NULL OR last_test_at <= now() - make_interval(secs => $3))
+       RETURNING id`,
+      { bind: [e.id, principal.organisationId, TEST_EVENT_INTERVAL_SECONDS], transaction },
+    );
+    if ((allowed as unknown[]).length === 0) {
+      const [rows] = await sequelize.query(
+        'SELECT greatest(1, ceil(extract(epoch FROM last_test_at + make_interval(secs => $2) - now())))::int AS wait FROM webhook_endpoints WHERE id = $1',
+        { bind: [e.id, TEST_EVENT_INTERVAL_SECONDS], transaction },
+      );
+      const wait = (rows as Array<{ wait: number }>)[0]?.wait ?? TEST_EVENT_INTERVAL_SECONDS;
+      throw new TooMany(`A test event went to this endpoint less than ${TEST_EVENT_INTERVAL_SECONDS} s ago; send the next one in ${wait} s.`, wait);
+    }
+    const payload = JSON.stringify({
+      type: TEST_EVENT,
+      timestamp: now.toISOString(),
+      data: { endpointId: e.id, message: 'A test event from Lotproof: your endpoint is reachable and can check the signature.' },
   });
   await sequelize.query(
     `INSERT INTO webhook_deliveries (id, organisation_id, endpoint_id, verdict_id, event_type, payload) VALUES ($1, $2, $3, NULL, $4, $5)`,
-    { bind: [deliveryId, principal.organisationId, e.id, TEST_EVENT, payload] },
+    { bind: [deliveryId, principal.organisationId, e.id, TEST_EVENT, payload], transaction },
   );
-  await audit(principal, from, 'webhook.tested', e.id, { deliveryId });
+  await audit(principal, from, 'webhook.tested', e.id, { deliveryId }, transaction);
+  });
   ledgerEvents.emit('appended');
   return {
     id: deliveryId,
