@@ -142,7 +142,23 @@ async function captureScenario(app: import('express').Express): Promise<Examples
   await call('recomputeVerdict', 'post', `/v1/verdicts/${verdictId}/recompute`, 'key');
   await call('getSeal', 'get', `/v1/seals/${lot.body.seal.value}`, 'key');
   await call('verifySeal', 'post', '/v1/seals/verify', 'key', doc.body, 'A sealed document as exported');
+  // The ledger's checkpoints and proofs: one checkpoint, a second lot, another, and proofs between them.
+  await call('issueCheckpoint', 'post', '/v1/ledger/checkpoints', 'key');
+  await call('issueCheckpoint', 'post', '/v1/ledger/checkpoints', 'key');
+  await call('submitLot', 'post', '/v1/lots', 'key', {
+    sku: 'FP-OATS-500', lotCode: 'L2-20261203-08', line: 'Line 2', packedAt: '2026-12-03T07:10:00Z', lotSize: 2400, testing: 'non-destructive',
+    measurementUnit: 'g', measurementBasis: 'net', measurements: measurements.map((m) => Math.round((m + 0.3) * 10) / 10), clientReference: 'MES-88418',
+  });
+  await call('issueCheckpoint', 'post', '/v1/ledger/checkpoints', 'key');
+  await call('listCheckpoints', 'get', '/v1/ledger/checkpoints', 'key');
+  await call('getLatestCheckpoint', 'get', '/v1/ledger/checkpoints/latest', 'key');
+  await call('getCheckpoint', 'get', '/v1/ledger/checkpoints/1', 'key');
+  await call('getInclusionProof', 'get', `/v1/ledger/proofs/inclusion?seal=${lot.body.seal.value}`, 'key');
+  await call('getConsistencyProof', 'get', '/v1/ledger/proofs/consistency?fromSize=1&toSize=2', 'key');
   await call('verifyLedger', 'get', '/v1/ledger/verify', 'key');
+  const walk = await call('startLedgerWalk', 'post', '/v1/ledger/walks', 'key');
+  await new Promise((r) => setTimeout(r, 500));
+  await call('getLedgerWalk', 'get', `/v1/ledger/walks/${walk.body.id}`, 'key');
   await call('exportVerdicts', 'get', '/v1/exports/verdicts?format=csv', 'key');
   await call('exportVerdicts', 'get', '/v1/exports/verdicts?format=ndjson', 'key');
   await call('getJwks', 'get', '/.well-known/jwks.json', 'none');
@@ -158,8 +174,13 @@ async function captureScenario(app: import('express').Express): Promise<Examples
   await call('sendTestWebhook', 'post', `/v1/webhooks/${hook.body.id}/test`, 'key');
   await call('listWebhookDeliveries', 'get', `/v1/webhooks/${hook.body.id}/deliveries`, 'key');
 
+  // Witnesses of the ledger: who receives every new checkpoint.
+  const witness = await call('addWitness', 'post', '/v1/ledger/witnesses', 'key', { name: 'Dana Okafor', role: 'external auditor', email: 'dana.okafor@audit.example' });
+  await call('listWitnesses', 'get', '/v1/ledger/witnesses', 'key');
+  await call('removeWitness', 'delete', `/v1/ledger/witnesses/${witness.body.id}`, 'key');
+
   // People: an invitation accepted, a role changed, a password reset.
-  await call('createInvitation', 'post', '/v1/invitations', 'session', { email: 'qa@fernhill.example', role: 'quality' });
+  await call('createInvitation', 'post', '/v1/invitations', 'session', { email: 'qa@fernhill.example', roles: ['quality'] });
   await call('listInvitations', 'get', '/v1/invitations', 'session');
   // A reset link is mailed after the 202 (so the answer's timing tells nothing): wait up to 5 s for it.
   const token = async (kind: string) => {
@@ -177,10 +198,10 @@ async function captureScenario(app: import('express').Express): Promise<Examples
   await call('inspectInvitation', 'post', '/v1/invitations/inspect', 'none', { token: invite });
   const accepted = await call('acceptInvitation', 'post', '/v1/invitations/accept', 'none', { token: invite, password: PASSWORD, name: 'Rowan Ashby' });
   await call('listUsers', 'get', '/v1/users', 'session');
-  await call('changeUserRole', 'patch', `/v1/users/${accepted.body.id}`, 'session', { role: 'auditor' });
+  await call('changeUserRole', 'patch', `/v1/users/${accepted.body.id}`, 'session', { roles: ['quality', 'auditor'] });
   await call('requestPasswordReset', 'post', '/v1/password-resets', 'none', { email: 'qa@fernhill.example' });
   await call('completePasswordReset', 'post', '/v1/password-resets/complete', 'none', { token: await token('reset-password'), password: `${PASSWORD} anew` });
-  const second = await call('createInvitation', 'post', '/v1/invitations', 'session', { email: 'line3@fernhill.example', role: 'quality' });
+  const second = await call('createInvitation', 'post', '/v1/invitations', 'session', { email: 'line3@fernhill.example', roles: ['quality'] });
   await call('revokeInvitation', 'delete', `/v1/invitations/${second.body.id}`, 'session');
   await call('getDevMailbox', 'get', '/v1/dev/mailbox', 'none');
 

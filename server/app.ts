@@ -9,6 +9,7 @@ import cookieParser from 'cookie-parser';
 import helmet from 'helmet';
 import { pinoHttp } from 'pino-http';
 import swaggerUi from 'swagger-ui-express';
+import { DOCS_LOOK, serveDocsAssets } from './docs-look';
 import * as OpenApiValidator from 'express-openapi-validator';
 import { loadApiDocument, operationsOf } from '../openapi/load';
 import { authenticate, authorize } from './http/access';
@@ -90,6 +91,7 @@ export function createApp(ctx: AppContext): Express {
   );
 
   // The document itself and the interactive docs (Swagger UI's assets are served from node_modules).
+  serveDocsAssets(app);
   app.get('/v1/openapi.json', (_req, res) => {
     res.json(doc);
   });
@@ -97,9 +99,10 @@ export function createApp(ctx: AppContext): Express {
     '/docs',
     swaggerUi.serve,
     swaggerUi.setup(doc, {
-      customSiteTitle: 'Lotproof API',
-      // persistAuthorization off: a pasted API key must not outlive the page in the browser's storage
-      swaggerOptions: { persistAuthorization: false, tryItOutEnabled: true, displayRequestDuration: true },
+      ...DOCS_LOOK,
+      // persistAuthorization off: a pasted API key must not outlive the page in the browser's storage;
+      // validatorUrl null: no badge that sends the document to an outside validator
+      swaggerOptions: { persistAuthorization: false, tryItOutEnabled: true, displayRequestDuration: true, validatorUrl: null },
     }),
   );
 

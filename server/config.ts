@@ -9,6 +9,11 @@ export interface Config {
   port: number;
   /** PostgreSQL connection string; null means "start the embedded local cluster". */
   databaseUrl: string | null;
+  /**
+   * Connection for migrations, as the role that owns the tables (LOTPROOF_MIGRATION_DATABASE_URL);
+   * null: migrations run on databaseUrl, whose role then owns the tables (server/db/prepare.ts).
+   */
+  migrationDatabaseUrl: string | null;
   /** Port of the embedded cluster (only used when databaseUrl is null). */
   embeddedPgPort: number;
   /** API processes `npm start` runs on the one port (node:cluster); 1 serves from the start process itself. */
@@ -72,6 +77,8 @@ export interface VerdictConfig {
   signingKeyPem: string | null;
   /** Most verdicts one group commit appends to the ledger in one transaction. */
   ledgerBatchMax: number;
+  /** Seconds between rounds of scheduled checkpoints (each organisation whose chain grew gets one). */
+  checkpointIntervalSeconds: number;
   /** Run the job workers (webhook delivery, alert e-mail) in this process. */
   runJobs: boolean;
   /** Attempts per webhook delivery before it is marked failed; retries back off exponentially. */
@@ -216,11 +223,19 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env, argv: readonly 
   if (databaseUrl && !/^postgres(ql)?:\/\//.test(databaseUrl)) {
     throw new ConfigError('DATABASE_URL must be a postgres:// connection string');
   }
+  const migrationDatabaseUrl = env.LOTPROOF_MIGRATION_DATABASE_URL || null;
+  if (migrationDatabaseUrl && !/^postgres(ql)?:\/\//.test(migrationDatabaseUrl)) {
+    throw new ConfigError('LOTPROOF_MIGRATION_DATABASE_URL must be a postgres:// connection string');
+  }
+  if (migrationDatabaseUrl && !databaseUrl) {
+    throw new ConfigError('LOTPROOF_MIGRATION_DATABASE_URL is set without DATABASE_URL: set both (the embedded cluster sets up its own roles)');
+  }
   const development = developmentMode(env, argv);
   return {
     host,
     port,
     databaseUrl,
+    migrationDatabaseUrl,
     embeddedPgPort: int(env, 'LOTPROOF_PG_PORT', 25480, 1024, 65535),
     processes: int(env, 'LOTPROOF_PROCESSES', 1, 1, 64),
     dataDir: resolve(env.LOTPROOF_DATA_DIR || '.data'),
@@ -265,6 +280,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env, argv: readonly 
     verdicts: {
       signingKeyPem: env.LOTPROOF_SIGNING_KEY ? env.LOTPROOF_SIGNING_KEY.replace(/\\n/g, '\n') : null,
       ledgerBatchMax: int(env, 'LOTPROOF_LEDGER_BATCH_MAX', 256, 1, 5000),
+      checkpointIntervalSeconds: int(env, 'LOTPROOF_CHECKPOINT_INTERVAL_SECONDS', 300, 1, 86_400),
       runJobs: bool(env, 'LOTPROOF_RUN_JOBS', true),
       webhookRetryLimit: int(env, 'LOTPROOF_WEBHOOK_RETRY_LIMIT', 8, 0, 50),
       webhookRetryDelaySeconds: int(env, 'LOTPROOF_WEBHOOK_RETRY_DELAY_SECONDS', 10, 1, 3600),

@@ -8,6 +8,7 @@ import { initIdentityModels } from './identity/models';
 import { initUsageModels } from './metering/models';
 import { initProduct } from './products/models';
 import { initWebhookEndpoint } from './webhooks/models';
+import { initLedgerWitness } from './ledger/witnesses-model';
 
 export function initModels(sequelize: Sequelize): void {
   initOrganisation(sequelize);
@@ -16,6 +17,7 @@ export function initModels(sequelize: Sequelize): void {
   initUsageModels(sequelize);
   initProduct(sequelize);
   initWebhookEndpoint(sequelize);
+  initLedgerWitness(sequelize);
 }
 
 export { ApiKey } from './identity/api-key-model';
@@ -24,3 +26,4 @@ export { AuditEvent, Invitation, PasswordReset, Session, User } from './identity
 export { UsageDay } from './metering/models';
 export { Product } from './products/models';
 export { WebhookEndpoint } from './webhooks/models';
+export { LedgerWitness } from './ledger/witnesses-model';

@@ -3,6 +3,7 @@
 // operation has no handler in its area, or an area answers an operation that is not its own.
 import type { AppContext, Handlers } from './http/context';
 import { identityHandlers } from './identity/routes';
+import { ledgerHandlers } from './ledger/routes';
 import { meteringHandlers } from './metering/routes';
 import { productHandlers } from './products/routes';
 import { systemHandlers } from './system/routes';
@@ -16,6 +17,7 @@ export function handlersByArea(ctx: AppContext): Record<string, Handlers> {
     metering: meteringHandlers(ctx),
     products: productHandlers(ctx),
     verdicts: verdictHandlers(ctx),
+    ledger: ledgerHandlers(ctx),
     webhooks: webhookHandlers(ctx),
   };
 }

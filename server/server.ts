@@ -5,7 +5,7 @@ import type { Logger } from 'pino';
 import { createApp } from './app';
 import type { Config } from './config';
 import { openDatabase, type Database } from './db/database';
-import { migrate } from './db/migrate';
+import { prepareDatabase } from './db/prepare';
 import type { AppContext } from './http/context';
 import { answerClientErrorsAsProblems } from './http/client-errors';
 import { createHttpServer } from './http/http-server';
@@ -13,7 +13,7 @@ import { startJobs, type RunningJobs } from './jobs';
 import { currentSigningKey, publishSigningKey } from './verdicts/signing-keys';
 import { secretBox } from './core/secret-box';
 import { resealWebhookSecrets } from './webhooks/endpoints';
-import { startRecomputeWorker } from './verdicts/stored-verdicts';
+import { startAsideThread } from './core/aside-thread';
 
 export interface RunningServer {
   url: string;
@@ -98,7 +98,8 @@ export function installProcessGuards(logger: Logger, stop: () => Promise<void>):
 
 export async function startServer(config: Config & { databaseUrl: string }, logger: Logger, options: StartOptions = {}): Promise<RunningServer> {
   const db: Database = openDatabase(config.databaseUrl, logger);
-  await migrate(db.sequelize, (m) => logger.debug(m));
+  // Migrations as the tables' owner (LOTPROOF_MIGRATION_DATABASE_URL), the app's rights granted (issue 15).
+  await prepareDatabase(config, logger);
   const ctx: AppContext = { config, db, logger };
   // The seal signing key: read (or created) now, so a bad LOTPROOF_SIGNING_KEY stops the start.
   await publishSigningKey(db.sequelize, currentSigningKey(config));
@@ -108,7 +109,7 @@ export async function startServer(config: Config & { databaseUrl: string }, logg
     logger.warn(`${sealed.unreadable} stored webhook secret(s) do not open with this server's secrets key (LOTPROOF_SECRETS_KEY or <dataDir>/secrets-key); their deliveries will fail until the key that sealed them is configured`);
   }
   const app = createApp(ctx);
-  startRecomputeWorker();
+  startAsideThread();
   // From here on a job, timer or event handler runs beside us: the process-wide policy is in place
   // before the first of them starts.
   let stop: () => Promise<void> = async () => {

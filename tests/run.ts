@@ -1,6 +1,6 @@
 // `npm test`: the whole suite on a throwaway PostgreSQL cluster.
 // Makes sure Debian's postgresql, r-base-core and chromium are present, type-checks everything, starts a cluster in a temp
-// folder on a free port, migrates it, builds the console, runs every vitest project, and removes the
+// folder on a free port (with its owner and app roles), migrates it as the owner, builds the console, runs every vitest project, and removes the
 // cluster afterwards — also when tests fail or the run is interrupted.
 import { spawn, type ChildProcess } from 'node:child_process';
 import { mkdtempSync } from 'node:fs';
@@ -8,8 +8,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { ensureDebianPackages } from '../server/platform/debian-packages';
 import { destroyCluster, freePort, startCluster, type RunningCluster } from '../server/platform/embedded-postgres';
-import { openDatabase } from '../server/db/database';
-import { migrate } from '../server/db/migrate';
+import { prepareDatabase } from '../server/db/prepare';
 
 let cluster: RunningCluster | null = null;
 let vitest: ChildProcess | null = null;
@@ -48,9 +47,8 @@ async function main(): Promise<number> {
   // In the temp folder; when the postgres user cannot reach that, startCluster puts it in a stand-in.
   const dir = mkdtempSync(join(tmpdir(), 'lotproof-test-pg-'));
   cluster = startCluster({ dir, port: await freePort(), database: 'lotproof_test' });
-  const db = openDatabase(cluster.url);
-  await migrate(db.sequelize);
-  await db.close();
+  // Migrated as the tables' owner; the tests' app connects as the app role (least privilege, issue 15).
+  await prepareDatabase({ databaseUrl: cluster.appUrl, migrationDatabaseUrl: cluster.ownerUrl });
 
   const { build } = await import('vite');
   await build({ logLevel: 'error' });
@@ -58,7 +56,13 @@ async function main(): Promise<number> {
   const args = ['vitest', 'run', ...process.argv.slice(2)];
   const child = spawn('npx', args, {
     stdio: 'inherit',
-    env: { ...process.env, DATABASE_URL: cluster.url, LOTPROOF_VALIDATE_RESPONSES: 'true', NODE_ENV: 'test', LOG_LEVEL: 'silent' },
+    env: {
+      ...process.env,
+      DATABASE_URL: cluster.appUrl,
+      // For tests that need more than the app's rights: the owner (DDL), the superuser (the database administrator).
+      LOTPROOF_TEST_OWNER_URL: cluster.ownerUrl,
+      LOTPROOF_TEST_SUPERUSER_URL: cluster.url,
+      LOTPROOF_VALIDATE_RESPONSES: 'true', NODE_ENV: 'test', LOG_LEVEL: 'silent' },
   });
   vitest = child;
   return new Promise((resolve) => child.on('exit', (code, signal) => resolve(code ?? (signal ? 1 : 0))));

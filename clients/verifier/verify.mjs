@@ -1,143 +1,164 @@
 #!/usr/bin/env node
-// Lotproof offline seal verifier. Checks exported verdicts against a JWK Set without trusting the
-// Lotproof server: only node:crypto and the RFC 8785 canonicalisation below.
-//
-//   node verify.mjs --jwks jwks.json export.ndjson      (or a single verdict-<id>.json)
-//
-// For every sealed document (one per line) it checks that:
-//   1. the document is exactly its own RFC 8785 canonical form (so any changed byte shows);
-//   2. SHA-256 of the canonical JSON of `record` is `seal`;
-//   3. `signature` is a valid Ed25519 signature of the 32 seal bytes by the key `kid` of the JWKS;
-//   4. the record's chain fields hold together: position 1 has no previous seal, and where the
-//      file holds consecutive positions, each record names the seal before it.
-// Exit code 0 when every document passes, 1 when any fails, 2 on a usage or input error.
-import { createHash, createPublicKey, verify } from 'node:crypto';
-import { readFileSync } from 'node:fs';
+// Lotproof offline verifier: checks an export of sealed verdicts, or a checkpoint on its own, against
+// a JWK Set the auditor pinned and the checkpoints the auditor kept — trusting nothing the Lotproof
+// server says. Node.js ≥ 20 standard library only. Formats: FORMAT.md; how to use it: README.md.
+import { accessSync, constants, readFileSync } from 'node:fs';
+import { CheckpointFolder, checkAgainstKept, checkCheckpoint, describe, loadProofs } from './checkpoints.mjs';
+import { verifyExport } from './export-check.mjs';
+import { loadPinnedJwks } from './keys.mjs';
 
-/** RFC 8785 JSON Canonicalization Scheme. */
-export function canonicalize(value) {
-  if (value === null || typeof value === 'boolean') return JSON.stringify(value);
-  if (typeof value === 'number') {
-    if (!Number.isFinite(value)) throw new Error('non-finite number');
-    return JSON.stringify(value); // ECMAScript number serialisation (RFC 8785 §3.2.2.3); -0 → 0
+export { canonicalize } from './canonical.mjs';
+
+const USAGE = `Lotproof offline verifier
+
+  node verify.mjs --jwks <jwks.json> [options] <export.ndjson | verdict.json>
+  node verify.mjs checkpoint --jwks <jwks.json> --checkpoints <folder> [--consistency <proofs.json>] <checkpoint.json>
+
+Verifies an NDJSON export (lotproof.export/2): every sealed verdict (canonical form, seal, Ed25519
+signature by a pinned key valid at its recordedAt), its inclusion proof in the export's checkpoint,
+the checkpoint's own signature, and that the export is complete (no gap, duplicate, fork,
+reordering, cut-off tail or record of another organisation) with the root recomputed from the leaves.
+The second form checks one checkpoint received on its own (e-mail, webhook) against the kept ones.
+
+Options
+  --jwks <file>             the JWK Set you pinned (required); keys outside their nbf/exp window are refused
+  --checkpoints <folder>    your folder of checkpoints seen before: each new one must be consistent with
+                            them, and is kept there once verified
+  --consistency <file>      consistency proofs from the server, a JSON list of {fromSize,toSize,hashes};
+                            may be given more than once
+  --from-checkpoint <file>  a checkpoint you verified before: the export may start right after it
+  --partial                 accept a filtered (partial) export: exit 0 when every member is proven
+  --quiet                   print only failures and the summary
+  -h, --help                this text
+
+Exit codes
+  0  verified (a complete export, a partial one with --partial, a single document, or a checkpoint)
+  1  verification failed, or a partial export without --partial
+  2  usage error or unreadable input (a file, the JWKS, the proofs)
+`;
+
+function parseArgs(argv) {
+  const o = { mode: 'export', jwks: null, checkpoints: null, consistency: [], fromCheckpoint: null, partial: false, quiet: false, help: false, files: [] };
+  const args = [...argv];
+  if (args[0] === 'checkpoint') {
+    o.mode = 'checkpoint';
+    args.shift();
   }
-  if (typeof value === 'string') {
-    for (let i = 0; i < value.length; i++) {
-      const c = value.charCodeAt(i);
-      if (c >= 0xd800 && c <= 0xdbff) {
-        const d = value.charCodeAt(i + 1);
-        if (!(d >= 0xdc00 && d <= 0xdfff)) throw new Error('lone surrogate');
-        i++;
-      } else if (c >= 0xdc00 && c <= 0xdfff) throw new Error('lone surrogate');
+  while (args.length) {
+    const a = args.shift();
+    const value = () => {
+      const v = args.shift();
+      if (v === undefined || v.startsWith('--')) throw new Error(`${a} needs a value`);
+      return v;
+    };
+    if (a === '--help' || a === '-h') o.help = true;
+    else if (a === '--jwks') o.jwks = value();
+    else if (a === '--checkpoints') o.checkpoints = value();
+    else if (a === '--consistency') o.consistency.push(value());
+    else if (a === '--from-checkpoint') o.fromCheckpoint = value();
+    else if (a === '--partial') o.partial = true;
+    else if (a === '--quiet') o.quiet = true;
+    else if (a.startsWith('-') && a !== '-') throw new Error(`unknown option ${a}`);
+    else o.files.push(a);
+  }
+  if (o.help) return o;
+  if (!o.jwks) throw new Error('--jwks <file> is required: pin the JWK Set you trust');
+  if (o.files.length !== 1) throw new Error('give exactly one file to verify');
+  if (o.mode === 'checkpoint' && !o.checkpoints) throw new Error('checkpoint mode needs --checkpoints <folder>');
+  if (o.mode === 'checkpoint' && o.fromCheckpoint) throw new Error('--from-checkpoint is for exports');
+  return o;
+}
+
+/** Reads what the user named; any failure here is a usage error (exit 2). */
+function readInputs(o) {
+  const read = (what, file, parse) => {
+    try {
+      return parse(readFileSync(file, 'utf8'));
+    } catch (err) {
+      throw new Error(`cannot read ${what} ${file}: ${err.message}`);
     }
-    return JSON.stringify(value);
-  }
-  if (Array.isArray(value)) return `[${value.map(canonicalize).join(',')}]`;
-  if (typeof value === 'object') {
-    // Property names sorted as arrays of UTF-16 code units (the default string sort).
-    const keys = Object.keys(value).sort();
-    return `{${keys.map((k) => `${canonicalize(k)}:${canonicalize(value[k])}`).join(',')}}`;
-  }
-  throw new Error(`unsupported value of type ${typeof value}`);
-}
-
-/** Strict base64url: decoding and re-encoding must give back the same text. */
-function base64url(text) {
-  if (typeof text !== 'string' || !/^[A-Za-z0-9_-]*$/.test(text)) return null;
-  const bytes = Buffer.from(text, 'base64url');
-  return bytes.toString('base64url') === text ? bytes : null;
-}
-
-export function loadJwks(text) {
-  const jwks = JSON.parse(text);
-  const keys = new Map();
-  for (const k of jwks.keys ?? []) {
-    if (k.kty !== 'OKP' || k.crv !== 'Ed25519' || typeof k.x !== 'string' || typeof k.kid !== 'string') continue;
-    keys.set(k.kid, createPublicKey({ key: { kty: 'OKP', crv: 'Ed25519', x: k.x }, format: 'jwk' }));
-  }
-  return keys;
-}
-
-/** Checks one line; returns a list of problems (empty when it passes) and the parsed document. */
-export function checkDocument(line, keys) {
-  const problems = [];
-  let doc;
+  };
+  const keys = read('the JWKS', o.jwks, loadPinnedJwks);
+  const proofs = o.consistency.flatMap((f) => read('the consistency proofs', f, loadProofs));
+  const pinned = o.fromCheckpoint ? read('the pinned checkpoint', o.fromCheckpoint, JSON.parse) : null;
+  // readable at all? (the export itself is streamed later)
   try {
-    doc = JSON.parse(line);
+    accessSync(o.files[0], constants.R_OK);
   } catch (err) {
-    return { problems: [`not valid JSON (${err.message})`], doc: null };
+    throw new Error(`cannot read the file ${o.files[0]}: ${err.message}`);
   }
-  if (!doc || typeof doc !== 'object' || Array.isArray(doc)) return { problems: ['not a sealed document object'], doc: null };
-  let canonical;
-  try {
-    canonical = canonicalize(doc);
-  } catch (err) {
-    return { problems: [`cannot be canonicalised (${err.message})`], doc: null };
-  }
-  if (canonical !== line) problems.push('the document is not in its canonical form: it was altered after export');
-  if (doc.format !== 'lotproof.sealed-verdict/1') problems.push(`unknown format ${JSON.stringify(doc.format)}`);
-  const rec = doc.record;
-  if (!rec || typeof rec !== 'object') return { problems: [...problems, 'no record'], doc: null };
-  const digest = createHash('sha256').update(canonicalize(rec), 'utf8').digest('hex');
-  if (digest !== doc.seal) problems.push('the record does not hash to the seal');
-  const key = keys.get(doc.kid);
-  const sig = base64url(doc.signature);
-  if (!key) problems.push(`the key ${JSON.stringify(doc.kid)} is not in the JWKS`);
-  else if (!sig || typeof doc.seal !== 'string' || !/^[0-9a-f]{64}$/.test(doc.seal)) problems.push('malformed seal or signature');
-  else if (!verify(null, Buffer.from(doc.seal, 'hex'), key, sig)) problems.push('the signature is not valid for this seal');
-  if (rec.sequence === 1 && rec.previousSeal !== null) problems.push('position 1 must not name a previous seal');
-  if (!Number.isInteger(rec.sequence) || rec.sequence < 1) problems.push('the record has no valid chain position');
-  return { problems, doc };
+  return { keys, proofs, pinned };
 }
 
-export function checkExport(text, keys) {
-  const lines = text.split('\n');
-  if (lines[lines.length - 1] === '') lines.pop();
-  const results = [];
-  let prev = null;
-  lines.forEach((line, i) => {
-    const { problems, doc } = checkDocument(line, keys);
-    if (doc && prev && doc.record.organisation?.id === prev.record.organisation?.id && doc.record.sequence === prev.record.sequence + 1 && doc.record.previousSeal !== prev.seal) {
-      problems.push(`does not link to the seal on line ${i}`);
-    }
-    results.push({ line: i + 1, seal: doc?.seal ?? null, sequence: doc?.record?.sequence ?? null, problems });
-    prev = doc;
-  });
-  return results;
-}
-
-function main(argv) {
-  const j = argv.indexOf('--jwks');
-  const jwksPath = j >= 0 ? argv[j + 1] : null;
-  const files = argv.filter((a, i) => a !== '--jwks' && i !== j + 1);
-  if (!jwksPath || files.length !== 1) {
-    console.error('usage: node verify.mjs --jwks <jwks.json> <export.ndjson | verdict.json>');
-    return 2;
-  }
-  let keys;
-  let text;
+async function checkpointMode(o, { keys, proofs }, print) {
+  let cp;
   try {
-    keys = loadJwks(readFileSync(jwksPath, 'utf8'));
-    text = readFileSync(files[0], 'utf8');
+    cp = JSON.parse(readFileSync(o.files[0], 'utf8'));
   } catch (err) {
-    console.error(`cannot read input: ${err.message}`);
-    return 2;
-  }
-  if (text.length === 0) {
-    console.error('the export is empty');
+    print(`FAIL  the checkpoint file is not JSON: ${err.message}`);
     return 1;
   }
-  const results = checkExport(text, keys);
-  let bad = 0;
-  for (const r of results) {
-    if (r.problems.length === 0) console.log(`ok    line ${r.line}  position ${r.sequence}  seal ${r.seal}`);
-    else {
-      bad++;
-      console.log(`FAIL  line ${r.line}: ${r.problems.join('; ')}`);
-    }
+  const bad = checkCheckpoint(cp, keys);
+  if (bad.length) {
+    for (const p of bad) print(`FAIL  ${p}`);
+    return 1;
   }
-  console.log(bad === 0 ? `all ${results.length} sealed verdict(s) verified` : `${bad} of ${results.length} failed`);
-  return bad === 0 ? 0 : 1;
+  const folder = new CheckpointFolder(o.checkpoints);
+  const { kept, problems: folderProblems } = folder.load(cp.organisationId, keys);
+  const { problems, notes } = checkAgainstKept(cp, kept, { proofs });
+  for (const n of notes) print(`note  ${n}`);
+  for (const p of [...folderProblems, ...problems]) print(`FAIL  ${p}`);
+  print(`organisation  ${cp.organisationId}`);
+  print(`checkpoint    ${describe(cp)} key ${cp.kid}`);
+  if (folderProblems.length || problems.length) {
+    print('REJECTED      the checkpoint is not kept');
+    return 1;
+  }
+  const added = folder.save(cp);
+  print(kept.length === 0 ? 'VERIFIED      signature valid; the first checkpoint kept for this organisation' : `VERIFIED      signature valid and consistent with ${kept.length} kept checkpoint(s); ${added ? 'now kept' : 'already kept'}`);
+  return 0;
 }
 
-if (import.meta.url === `file://${process.argv[1]}`) process.exit(main(process.argv.slice(2)));
+async function exportMode(o, { keys, proofs, pinned }, print) {
+  const folder = o.checkpoints ? new CheckpointFolder(o.checkpoints) : null;
+  const result = await verifyExport(o.files[0], {
+    keys, pinned, proofs, quiet: o.quiet, print,
+    loadKept: folder ? (org) => folder.load(org, keys) : null,
+  });
+  if (result.status === 'failed') {
+    print('FAILED        see the FAIL lines above');
+    return 1;
+  }
+  if (result.status === 'single') return 0;
+  if (result.status === 'partial' && !o.partial) {
+    print(`PARTIAL       ${result.members} member(s) proven, but a partial export does not show the ledger is complete; pass --partial to accept a partial check`);
+    return 1;
+  }
+  if (folder) for (const cp of result.toKeep) folder.save(cp);
+  print(result.status === 'partial' ? `PARTIAL       accepted as a partial check (--partial): ${result.members} member(s) proven` : `VERIFIED      ${result.members} sealed verdict(s)`);
+  return 0;
+}
+
+export async function main(argv, print = (l) => console.log(l)) {
+  let o;
+  try {
+    o = parseArgs(argv);
+  } catch (err) {
+    console.error(`usage error: ${err.message}\n\n${USAGE}`);
+    return 2;
+  }
+  if (o.help) {
+    print(USAGE);
+    return 0;
+  }
+  let inputs;
+  try {
+    inputs = readInputs(o);
+  } catch (err) {
+    console.error(err.message);
+    return 2;
+  }
+  return o.mode === 'checkpoint' ? checkpointMode(o, inputs, print) : exportMode(o, inputs, print);
+}
+
+if (import.meta.url === `file://${process.argv[1]}`) process.exitCode = await main(process.argv.slice(2));

@@ -9,7 +9,7 @@ import { join } from 'node:path';
 import { parseArgs } from 'node:util';
 import { ConfigError, loadConfig } from '../config';
 import { openDatabase, type Database } from '../db/database';
-import { migrate } from '../db/migrate';
+import { prepareDatabase } from '../db/prepare';
 import { Failure } from '../core/errors';
 import { ApiKey } from '../models';
 import { ensureDebianPackages, MissingPackagesError } from '../platform/debian-packages';
@@ -20,7 +20,9 @@ import { apiKeyView, createKey, listKeys, revokeKey } from '../identity/api-keys
 import { createOrganisation, findOrganisation } from '../identity/organisations';
 import { SCOPES, type Principal, type Scope } from '../core/principal';
 import { createUser } from '../identity/users';
-import { currentSigningKey, publishSigningKey, rotateSigningKeyFile } from '../verdicts/signing-keys';
+import {
+  currentSigningKey, keyWindow, recordPublicKey, retireSigningKey, revokeSigningKey, rotateSigningKeyFile, ROTATION_GRACE_MS, type SigningKey,
+} from '../verdicts/signing-keys';
 import { rotateSecretsKeyFile, secretBox } from '../core/secret-box';
 import { resealWebhookSecrets } from '../webhooks/endpoints';
 
@@ -35,10 +37,18 @@ const USAGE = `Lotproof operator CLI
   npm run cli -- key:list --org <slug|id>
   npm run cli -- key:revoke --org <slug|id> --key <key id | lpk_ prefix>
   npm run cli -- signing-key:rotate
-      Replaces the seal signing key in the data folder with a new one and publishes its public key
-      (every old public key stays in /.well-known/jwks.json, so old seals stay verifiable).
-      Running servers sign with the new key after a restart. With LOTPROOF_SIGNING_KEY set, put
-      the new PKCS#8 PEM there instead (openssl genpkey -algorithm ed25519) and restart.
+      Replaces the seal signing key in the data folder with a new one and deletes the old private
+      key (and any signing-key.*.retired.pem an earlier version kept). The old public key stays in
+      /.well-known/jwks.json with exp = now + ${ROTATION_GRACE_MS / 1000} s (running servers switch to the new key within
+      seconds; the grace covers them), so old seals stay verifiable; the new key's nbf is now.
+      With LOTPROOF_SIGNING_KEY set, put the new PKCS#8 PEM there instead (openssl genpkey
+      -algorithm ed25519), restart, then run signing-key:retire <old kid>.
+  npm run cli -- signing-key:retire <kid>
+      Ends a key's validity window ${ROTATION_GRACE_MS / 1000} s from now (exp); servers stop sealing with it.
+  npm run cli -- signing-key:revoke <kid> --from 2026-01-31T12:00:00Z --reason "key file leaked"
+      Marks a compromised key revoked from that time (to the second, rounded down): seals and
+      checkpoints it signed dated at or after it no longer verify, anywhere. The key's exp moves back
+      to that time. A revoked key that is this data folder's current key is rotated first.
   npm run cli -- secrets-key:rotate
       Replaces the key that seals webhook secrets in the data folder (the old one is kept as
       secrets-key.previous and still opens) and seals every stored secret again under the new key.
@@ -72,26 +82,48 @@ async function portOpen(port: number): Promise<boolean> {
   });
 }
 
+/**
+ * Runs `fn` on the database as the tables' owner (LOTPROOF_MIGRATION_DATABASE_URL, or the embedded
+ * cluster's owner role; DATABASE_URL when there is no owner's connection): the operator's changes,
+ * such as a key's validity window, are more than the app's role may make.
+ */
 async function withDatabase<T>(fn: (db: Database, publicUrl: string, invitationTtlHours: number) => Promise<T>): Promise<T> {
   const config = loadConfig();
   let cluster: RunningCluster | null = null;
   let url = config.databaseUrl;
+  let ownerUrl = config.migrationDatabaseUrl;
   let ownCluster = false;
   if (!url) {
     ensureDebianPackages(['postgresql']);
     mkdirSync(config.dataDir, { recursive: true });
     ownCluster = !(await portOpen(config.embeddedPgPort));
     cluster = startCluster({ dir: join(config.dataDir, 'postgres'), port: config.embeddedPgPort, database: 'lotproof' });
-    url = cluster.url;
+    url = cluster.appUrl;
+    ownerUrl = cluster.ownerUrl;
   }
-  const db = openDatabase(url, undefined, 2);
+  await prepareDatabase({ databaseUrl: url, migrationDatabaseUrl: ownerUrl });
+  const db = openDatabase(ownerUrl ?? url, undefined, 2);
   try {
-    await migrate(db.sequelize);
     return await fn(db, config.publicUrl, config.sessions.invitationTtlHours);
   } finally {
     await db.close();
     if (ownCluster) cluster?.stop();
   }
+}
+
+/**
+ * Rotates the data folder's key: the new key is published (nbf = now) before it replaces the old
+ * file, then the old key's window ends at now + ROTATION_GRACE_MS. Deleted files are named.
+ */
+async function rotateFileKey(db: Database, dataDir: string): Promise<{ previous: SigningKey; next: SigningKey; nbf: Date; exp: Date }> {
+  const now = new Date();
+  const { previous, next, replace } = rotateSigningKeyFile(dataDir);
+  await recordPublicKey(db.sequelize, previous, now); // published (again) before it is retired
+  await recordPublicKey(db.sequelize, next, now);
+  for (const f of replace()) console.log(`deleted ${join(dataDir, f)} (a retired private key an earlier version kept)`);
+  const exp = (await retireSigningKey(db.sequelize, previous.kid, new Date(now.getTime() + ROTATION_GRACE_MS)))!;
+  const nbf = (await keyWindow(db.sequelize, next.kid))!.nbf;
+  return { previous, next, nbf, exp };
 }
 
 async function org(idOrSlug: string) {
@@ -109,7 +141,7 @@ function parseScopes(raw: string): Scope[] {
 
 async function main(argv: string[]): Promise<void> {
   const [command, ...rest] = argv;
-  const { values } = parseArgs({
+  const { values, positionals } = parseArgs({
     args: rest,
     options: {
       name: { type: 'string' },
@@ -120,8 +152,11 @@ async function main(argv: string[]): Promise<void> {
       scopes: { type: 'string' },
       expires: { type: 'string' },
       key: { type: 'string' },
+      from: { type: 'string' },
+      reason: { type: 'string' },
     },
     strict: true,
+    allowPositionals: true,
   });
   const actor = (organisationId: string) => ({ principal: operator(organisationId), kind: 'operator' as const, label: 'operator CLI' });
 
@@ -192,14 +227,46 @@ async function main(argv: string[]): Promise<void> {
     case 'signing-key:rotate': {
       const config = loadConfig();
       if (config.verdicts.signingKeyPem) {
-        throw new UsageError('The signing key comes from LOTPROOF_SIGNING_KEY: put the new PKCS#8 PEM there (openssl genpkey -algorithm ed25519) and restart the servers; the old public key stays published.');
+        throw new UsageError('The signing key comes from LOTPROOF_SIGNING_KEY: put the new PKCS#8 PEM there (openssl genpkey -algorithm ed25519), restart the servers, then run signing-key:retire <old kid>; the old public key stays published.');
       }
       await withDatabase(async (db) => {
-        // the current key's public half is published (again) before it is retired, then the new one
-        await publishSigningKey(db.sequelize, currentSigningKey(config));
-        const { previous, next } = rotateSigningKeyFile(config.dataDir);
-        await publishSigningKey(db.sequelize, next);
-        console.log(`retired ${previous.kid} (kept as ${config.dataDir}/signing-key.${previous.kid}.retired.pem)\nsigning key is now ${next.kid}; restart running servers to sign with it`);
+        const r = await rotateFileKey(db, config.dataDir);
+        console.log(`retired ${r.previous.kid}: its private key is deleted; it signs nothing dated at or after ${r.exp.toISOString()} (rotation time + ${ROTATION_GRACE_MS / 1000} s grace)`);
+        console.log(`signing key is now ${r.next.kid} (valid from ${r.nbf.toISOString()}); running servers switch to it within seconds`);
+      });
+      return;
+    }
+    case 'signing-key:retire': {
+      const kid = positionals[0];
+      if (!kid) throw new UsageError('signing-key:retire needs the key id (kid) to retire');
+      await withDatabase(async (db) => {
+        if (!(await keyWindow(db.sequelize, kid))) throw new UsageError(`No published signing key ${kid}`);
+        const exp = await retireSigningKey(db.sequelize, kid, new Date(Date.now() + ROTATION_GRACE_MS));
+        console.log(`retired ${kid}: it signs nothing dated at or after ${exp!.toISOString()}`);
+      });
+      return;
+    }
+    case 'signing-key:revoke': {
+      const config = loadConfig();
+      const kid = positionals[0];
+      if (!kid) throw new UsageError('signing-key:revoke needs the key id (kid) to revoke');
+      const fromText = need(values, 'from');
+      const from = new Date(fromText);
+      if (!/^\d{4}-\d{2}-\d{2}T/.test(fromText) || Number.isNaN(from.getTime())) throw new UsageError('--from must be an ISO 8601 date-time, e.g. 2026-01-31T12:00:00Z');
+      const reason = need(values, 'reason');
+      if (reason.length > 500) throw new UsageError('--reason must be at most 500 characters');
+      await withDatabase(async (db) => {
+        if (!(await keyWindow(db.sequelize, kid))) throw new UsageError(`No published signing key ${kid}`);
+        // A compromised key must stop sealing here too: when it is this data folder's key, rotate first.
+        if (!config.verdicts.signingKeyPem && currentSigningKey(config).kid === kid) {
+          const r = await rotateFileKey(db, config.dataDir);
+          console.log(`rotated first: ${kid}'s private key is deleted; signing key is now ${r.next.kid}`);
+        }
+        const w = (await revokeSigningKey(db.sequelize, kid, from, reason))!;
+        console.log(`revoked ${kid} from ${w.revokedFrom!.toISOString()} (${w.revocationReason}); its window is now ${w.nbf.toISOString()} to ${w.exp!.toISOString()}`);
+        if (config.verdicts.signingKeyPem && currentSigningKey(config).kid === kid) {
+          console.log('this is the key in LOTPROOF_SIGNING_KEY: servers refuse to seal with it from now on; put a new key there and restart them');
+        }
       });
       return;
     }

@@ -15,7 +15,7 @@ import { startCluster, type RunningCluster } from '../platform/embedded-postgres
 import { startServer } from '../server';
 import { CONSOLE_DIST } from '../app';
 import { openDatabase } from '../db/database';
-import { migrate } from '../db/migrate';
+import { prepareDatabase } from '../db/prepare';
 import { secretBox } from '../core/secret-box';
 import { currentSigningKey } from '../verdicts/signing-keys';
 import { seedDemo } from '../demo/seed';
@@ -62,6 +62,7 @@ async function main(): Promise<void> {
   const config = loadConfig();
   const logger = createLogger(config.logLevel);
   let databaseUrl = config.databaseUrl;
+  let migrationDatabaseUrl = config.migrationDatabaseUrl;
   if (databaseUrl && !config.secretsKey) {
     // A database of one's own is often shared by several servers: they must seal alike.
     logger.warn(`LOTPROOF_SECRETS_KEY is not set: webhook secrets are sealed with ${join(config.dataDir, 'secrets-key')}; every server sharing this database needs the same key (set LOTPROOF_SECRETS_KEY on all of them)`);
@@ -79,7 +80,9 @@ async function main(): Promise<void> {
     });
     // A server another live process started (the CLI, say) is theirs to stop.
     if (cluster.startedHere) started.push(() => cluster.stop());
-    databaseUrl = cluster.url;
+    // Least privilege (issue 15): migrations as the tables' owner, the server as the app role.
+    databaseUrl = cluster.appUrl;
+    migrationDatabaseUrl = cluster.ownerUrl;
   }
   await buildConsoleIfMissing();
   if (signalled) return;
@@ -92,8 +95,8 @@ async function main(): Promise<void> {
   }
   if (signalled) return;
   const smtp = mailCatcher ? { ...config.smtp, host: mailCatcher.host, port: mailCatcher.port } : config.smtp;
-  if (config.processes > 1) return serveWithWorkers({ ...config, databaseUrl, smtp }, logger, mailCatcher);
-  const running = await startServer({ ...config, databaseUrl, smtp }, logger, { onFatal: stopEverything });
+  if (config.processes > 1) return serveWithWorkers({ ...config, databaseUrl, migrationDatabaseUrl, smtp }, logger, mailCatcher);
+  const running = await startServer({ ...config, databaseUrl, migrationDatabaseUrl, smtp }, logger, { onFatal: stopEverything });
   started.push(() => running.stop().catch((err) => logger.error({ err }, 'error while stopping')));
   if (signalled) return;
   const demo = config.seedDemo ? await seedDemo(running.ctx) : null;
@@ -120,13 +123,14 @@ async function serveWithWorkers(config: ReadyConfig, logger: ReturnType<typeof c
   // Done once here, so the workers never race to create a key file or run a migration.
   currentSigningKey(config);
   secretBox(config);
+  await prepareDatabase(config, logger);
   const db = openDatabase(config.databaseUrl, logger, 4);
   started.push(() => db.close());
-  await migrate(db.sequelize, (m) => logger.debug(m));
   const demo = config.seedDemo ? await seedDemo({ config, db, logger }) : null;
   if (signalled) return;
   const env = {
     DATABASE_URL: config.databaseUrl,
+    ...(config.migrationDatabaseUrl ? { LOTPROOF_MIGRATION_DATABASE_URL: config.migrationDatabaseUrl } : {}),
     SMTP_HOST: config.smtp.host,
     SMTP_PORT: String(config.smtp.port),
     LOTPROOF_SMTP_FAKE: 'false',

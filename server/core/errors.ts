@@ -43,8 +43,8 @@ export class NotFound extends Failure {
 
 /** The request clashes with what is stored (a duplicate, a state that does not allow it). */
 export class Conflict extends Failure {
-  constructor(message: string, code = 'conflict') {
-    super(code, message);
+  constructor(message: string, code = 'conflict', fields: FieldIssue[] = [], facts: Record<string, unknown> = {}) {
+    super(code, message, fields, facts);
   }
 }
 

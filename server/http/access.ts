@@ -6,7 +6,7 @@ import passport from 'passport';
 import { Strategy as BearerStrategy } from 'passport-http-bearer';
 import type { RequestHandler } from 'express';
 import type { Access } from '../../openapi/load';
-import type { Principal, Role, Scope } from '../core/principal';
+import { holdsAnyRole, type Principal, type Scope } from '../core/principal';
 import { ForbiddenProblem, UnauthorizedProblem } from './problem';
 
 declare module 'express-serve-static-core' {
@@ -77,7 +77,8 @@ export const authenticate: RequestHandler = (req, res, next) => {
 export function allows(access: Access, p: Principal): boolean {
   if (access === 'public') return true;
   if (p.kind === 'api-key') return (access.scopes ?? []).some((s) => p.scopes.includes(s as Scope));
-  return p.role !== undefined && (access.roles ?? []).includes(p.role as Role);
+  // a session holds one or more roles: any one of them allowed is enough
+  return holdsAnyRole(p, access.roles ?? []);
 }
 
 export function authorize(access: Access, operationId: string): RequestHandler {

@@ -1,5 +1,7 @@
-// The admin audit trail: who did what to keys, users and invitations, and failed sign-ins — who,
-// when, from where. Written by the identity services; read by admins and auditors.
+// The admin audit trail: who did what to keys, users and invitations, products and webhooks, and
+// failed sign-ins — who, when, from where; a change names the before and after of each field it
+// changed (`details.changes`: [{ field, before, after }]). Written by the identity services and, in
+// their own transactions, by the products and webhooks areas; read by admins and auditors.
 import { Op, type Transaction, type WhereOptions } from 'sequelize';
 import { ApiKey } from './api-key-model';
 import { AuditEvent, User } from './models';
@@ -23,6 +25,11 @@ export const AUDIT_ACTIONS = [
   'webhook.updated',
   'webhook.deleted',
   'webhook.tested',
+  'witness.added',
+  'witness.removed',
+  'product.created',
+  'product.updated',
+  'product.archived',
 ] as const;
 export type AuditAction = (typeof AUDIT_ACTIONS)[number];
 

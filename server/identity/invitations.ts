@@ -7,15 +7,17 @@ import { Conflict, NotFound, Refused, Unavailable } from '../core/errors';
 import { recordAudit, type Actor } from './audit-trail';
 import { sendMail } from '../core/mailer';
 import type { RateLimits } from '../metering/rate-limits';
-import type { Principal, Role } from '../core/principal';
+import { primaryRole, sortedRoles, type Principal, type Role } from '../core/principal';
 import { hashPassword, hashToken, newToken, TOKEN_PATTERN } from './credentials';
 import { revokeUserSessions } from './sessions';
-import { checkPassword, createUser, normaliseEmail, userView, type UserView } from './users';
+import { checkPassword, chosenRoles, createUser, normaliseEmail, userView, type RoleChoice, type UserView } from './users';
 
 export interface InvitationView {
   id: string;
   email: string;
+  /** The first of `roles`, for clients written when a user had one role. */
   role: Role;
+  roles: Role[];
   status: 'pending' | 'accepted' | 'revoked' | 'expired';
   createdAt: string;
   expiresAt: string;
@@ -33,12 +35,20 @@ function invitationView(inv: Invitation): InvitationView {
   return {
     id: inv.id,
     email: inv.email,
-    role: inv.role as Role,
+    role: primaryRole(inv.roles),
+    roles: sortedRoles(inv.roles),
     status: statusOf(inv),
     createdAt: inv.createdAt.toISOString(),
     expiresAt: inv.expiresAt.toISOString(),
     acceptedAt: inv.acceptedAt?.toISOString() ?? null,
   };
+}
+
+/** The roles as the console names them, for the invitation e-mail ("Quality engineer and Auditor"). */
+const ROLE_WORDS: Record<Role, string> = { admin: 'Admin', quality: 'Quality engineer', auditor: 'Auditor' };
+function rolesInWords(roles: readonly string[]): string {
+  const words = sortedRoles(roles).map((r) => ROLE_WORDS[r]);
+  return words.length > 1 ? `${words.slice(0, -1).join(', ')} and ${words[words.length - 1]}` : (words[0] ?? '');
 }
 
 async function deliver(to: string, subject: string, text: string): Promise<void> {
@@ -57,10 +67,11 @@ export interface LinkOptions {
 /** Records an invitation and returns its one-time accept link; sends nothing. */
 export async function issueInvitation(
   actor: Actor & { organisationId: string; userId?: string | null },
-  input: { email: string; role: Role },
+  input: { email: string } & RoleChoice,
   opts: LinkOptions,
 ): Promise<{ invitation: Invitation; link: string }> {
   const { organisationId } = actor;
+  const roles = chosenRoles(input);
   const email = normaliseEmail(input.email);
   // Only an account in this organisation is named here (its admins list its users anyway). An
   // account in another organisation is none of this one's business: the invitation goes out as
@@ -77,7 +88,7 @@ export async function issueInvitation(
       {
         organisationId,
         email,
-        role: input.role,
+        roles,
         tokenHash: hashToken(token),
         invitedBy: actor.userId ?? null,
         expiresAt: new Date(now.getTime() + opts.ttlHours * 3600_000),
@@ -91,7 +102,7 @@ export async function issueInvitation(
 /** Invites someone by e-mail: records the invitation and sends the accept link. */
 export async function createInvitation(
   actor: Actor & { principal: Principal },
-  input: { email: string; role: Role },
+  input: { email: string } & RoleChoice,
   opts: LinkOptions,
 ): Promise<InvitationView> {
   const organisationId = actor.principal.organisationId;
@@ -102,7 +113,7 @@ export async function createInvitation(
       inv.email,
       `You are invited to ${org?.name ?? 'an organisation'} on Lotproof`,
       [
-        `You have been invited to join ${org?.name ?? 'an organisation'} on Lotproof with the role "${input.role}".`,
+        `You have been invited to join ${org?.name ?? 'an organisation'} on Lotproof as ${rolesInWords(inv.roles)}.`,
         '',
         'Open this link to choose your password and activate your account:',
         link,
@@ -115,7 +126,7 @@ export async function createInvitation(
     await inv.destroy();
     throw err;
   }
-  await recordAudit(organisationId, actor, 'user.invited', { kind: 'invitation', id: inv.id }, { email: inv.email, role: input.role });
+  await recordAudit(organisationId, actor, 'user.invited', { kind: 'invitation', id: inv.id }, { email: inv.email, roles: sortedRoles(inv.roles) });
   return invitationView(inv);
 }
 
@@ -151,16 +162,16 @@ async function assertInviterMayInvite(inv: Invitation, transaction?: Transaction
     where: { id: inv.invitedBy, organisationId: inv.organisationId, removedAt: null },
     ...(transaction ? { lock: transaction.LOCK.SHARE, transaction } : {}),
   });
-  if (inviter?.role !== 'admin') {
+  if (!inviter?.roles.includes('admin')) {
     throw new Refused('invalid-token', 'This invitation link is no longer valid: whoever sent it may no longer invite. Ask an admin for a new one.');
   }
 }
 
 /** What an invitation link offers, for the accept page. */
-export async function inspectInvitation(token: string): Promise<{ email: string; role: Role; organisation: { name: string }; expiresAt: string }> {
+export async function inspectInvitation(token: string): Promise<{ email: string; role: Role; roles: Role[]; organisation: { name: string }; expiresAt: string }> {
   const inv = await pendingInvitation(token);
   const org = await Organisation.findByPk(inv.organisationId);
-  return { email: inv.email, role: inv.role as Role, organisation: { name: org?.name ?? '' }, expiresAt: inv.expiresAt.toISOString() };
+  return { email: inv.email, role: primaryRole(inv.roles), roles: sortedRoles(inv.roles), organisation: { name: org?.name ?? '' }, expiresAt: inv.expiresAt.toISOString() };
 }
 
 /**
@@ -183,11 +194,11 @@ export async function acceptInvitation(input: { token: string; password: string;
     });
     if (!inv) throw new Refused('invalid-token', 'This invitation link is not valid: it was used, revoked, or has expired. Ask an admin for a new one.');
     const user = await createUser(
-      { organisationId: inv.organisationId, email: inv.email, name: input.name, role: inv.role as Role, password: input.password },
+      { organisationId: inv.organisationId, email: inv.email, name: input.name, roles: inv.roles, password: input.password },
       { transaction, passwordHash },
     );
     await inv.update({ acceptedAt: new Date(), acceptedUserId: user.id }, { transaction });
-    await recordAudit(inv.organisationId, { kind: 'anonymous', label: user.email, ip: input.ip }, 'invitation.accepted', { kind: 'user', id: user.id }, { role: user.role }, transaction);
+    await recordAudit(inv.organisationId, { kind: 'anonymous', label: user.email, ip: input.ip }, 'invitation.accepted', { kind: 'user', id: user.id }, { roles: sortedRoles(user.roles) }, transaction);
     return userView(user);
   });
 }

@@ -7,7 +7,8 @@ export class User extends Model {
   declare organisationId: string;
   declare email: string;
   declare name: string;
-  declare role: string;
+  /** One or more of ROLES (server/core/principal.ts), without repeats, in that order. */
+  declare roles: string[];
   declare passwordHash: string;
   declare createdAt: Date;
   declare removedAt: Date | null;
@@ -30,7 +31,7 @@ export class Invitation extends Model {
   declare id: string;
   declare organisationId: string;
   declare email: string;
-  declare role: string;
+  declare roles: string[];
   declare tokenHash: Buffer;
   declare invitedBy: string | null;
   declare createdAt: Date;
@@ -72,7 +73,7 @@ export function initIdentityModels(sequelize: Sequelize): void {
       organisationId: uuid(false),
       email: { type: DataTypes.TEXT, allowNull: false },
       name: { type: DataTypes.TEXT, allowNull: false, defaultValue: '' },
-      role: { type: DataTypes.TEXT, allowNull: false },
+      roles: { type: DataTypes.ARRAY(DataTypes.TEXT), allowNull: false },
       passwordHash: { type: DataTypes.TEXT, allowNull: false },
       createdAt: { type: DataTypes.DATE, allowNull: false, defaultValue: DataTypes.NOW },
       removedAt: { type: DataTypes.DATE },
@@ -99,7 +100,7 @@ export function initIdentityModels(sequelize: Sequelize): void {
       id: { type: DataTypes.UUID, primaryKey: true, defaultValue: DataTypes.UUIDV4 },
       organisationId: uuid(false),
       email: { type: DataTypes.TEXT, allowNull: false },
-      role: { type: DataTypes.TEXT, allowNull: false },
+      roles: { type: DataTypes.ARRAY(DataTypes.TEXT), allowNull: false },
       tokenHash: { type: DataTypes.BLOB, allowNull: false },
       invitedBy: uuid(),
       createdAt: { type: DataTypes.DATE, allowNull: false, defaultValue: DataTypes.NOW },

@@ -22,10 +22,10 @@ import { idempotent } from '../core/idempotency';
 import { idempotencyClaim, pageOf, sendStored } from '../http/replies';
 import { createKey, getKey, listKeys, revokeKey } from './api-keys';
 import { configureMailer, readDevMailbox } from '../core/mailer';
-import type { Principal, Role, Scope } from '../core/principal';
+import type { Principal, Scope } from '../core/principal';
 import { createRateLimits } from '../metering/rate-limits';
 import { describeSession, revokeSession, signIn, signInLimitConfig } from './sessions';
-import { changeRole, listUsers, removeUser } from './users';
+import { changeRoles, listUsers, removeUser } from './users';
 
 function ip(req: Request): string {
   return req.ip ?? 'unknown';
@@ -77,7 +77,7 @@ export function identityHandlers(ctx: AppContext): Handlers {
       res.json({ items: await listUsers(req.principal!.organisationId) });
     },
     changeUserRole: async (req, res) => {
-      res.json(await changeRole(actor(req), String(req.params.userId), req.body.role as Role));
+      res.json(await changeRoles(actor(req), String(req.params.userId), { roles: req.body.roles, role: req.body.role }));
     },
     removeUser: async (req, res) => {
       await removeUser(actor(req), String(req.params.userId));
@@ -90,7 +90,7 @@ export function identityHandlers(ctx: AppContext): Handlers {
     createInvitation: async (req, res) => {
       // A retry with the same Idempotency-Key gets the first reply and sends no second e-mail.
       const r = await idempotent(ctx.db.sequelize, idempotencyClaim(req, 'createInvitation'), async () => {
-        const v = await createInvitation(actor(req), { email: req.body.email, role: req.body.role as Role }, links);
+        const v = await createInvitation(actor(req), { email: req.body.email, roles: req.body.roles, role: req.body.role }, links);
         return { status: 201, value: v, resourceId: v.id };
       });
       sendStored(res, r);

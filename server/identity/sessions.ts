@@ -9,7 +9,7 @@ import type { RateLimits } from '../metering/rate-limits';
 import type { RateLimitConfig } from '../config';
 import { burnPasswordCheck, hashToken, newToken, TOKEN_PATTERN, verifyPassword } from './credentials';
 import { normaliseEmail, userView, type UserView } from './users';
-import type { Principal, Role } from '../core/principal';
+import { sortedRoles, type Principal } from '../core/principal';
 
 export interface SessionView {
   user: UserView;
@@ -114,7 +114,7 @@ export async function resolveSession(token: string, idleMinutes: number, now = n
     await Session.update({ lastSeenAt: now }, { where: { id: session.id, lastSeenAt: { [Op.lt]: now } } });
   }
   return {
-    principal: { organisationId: user.organisationId, kind: 'session', scopes: [], role: user.role as Role, userId: user.id, sessionId: session.id },
+    principal: { organisationId: user.organisationId, kind: 'session', scopes: [], roles: sortedRoles(user.roles), userId: user.id, sessionId: session.id },
     view: await viewOf(user, session),
   };
 }

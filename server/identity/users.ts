@@ -1,11 +1,11 @@
 // Console users of an organisation: listing, role changes, removal (with the invitations they sent),
-// and password rules.
+// and password rules. A user holds one or more roles (issue 16); someone must keep admin.
 import { Op, UniqueConstraintError, type Transaction } from 'sequelize';
 import { Invitation, Session, User } from './models';
 import { Conflict, InvalidInput, NotFound } from '../core/errors';
 import { recordAudit, type Actor } from './audit-trail';
 import { hashPassword } from './credentials';
-import type { Role } from '../core/principal';
+import { primaryRole, ROLES, sortedRoles, type Role } from '../core/principal';
 
 export const PASSWORD_MIN = 12;
 export const PASSWORD_MAX = 200;
@@ -14,12 +14,40 @@ export interface UserView {
   id: string;
   email: string;
   name: string;
+  /** The first of `roles`, for clients written when a user had one role. */
   role: Role;
+  roles: Role[];
   createdAt: string;
 }
 
 export function userView(u: User): UserView {
-  return { id: u.id, email: u.email, name: u.name, role: u.role as Role, createdAt: u.createdAt.toISOString() };
+  const roles = sortedRoles(u.roles);
+  return { id: u.id, email: u.email, name: u.name, role: primaryRole(roles), roles, createdAt: u.createdAt.toISOString() };
+}
+
+/** Roles as a request names them: `roles`, or the older single `role`, never both. */
+export interface RoleChoice {
+  roles?: readonly string[];
+  role?: string;
+}
+
+/**
+ * The roles a choice names, without repeats and in the order of ROLES; refused, naming the field,
+ * when it names none, both forms, a role twice or a role we do not have.
+ */
+export function chosenRoles(choice: RoleChoice): Role[] {
+  if (choice.roles !== undefined && choice.role !== undefined) {
+    throw new InvalidInput('Send the roles as `roles` only (`role` is the older form for one role).', [{ field: '/role', detail: 'not together with roles' }]);
+  }
+  const named = choice.roles ?? (choice.role !== undefined ? [choice.role] : []);
+  if (named.length === 0) throw new InvalidInput('Name at least one role.', [{ field: '/roles', detail: 'at least one role' }]);
+  const unknown = named.findIndex((r) => !(ROLES as readonly string[]).includes(r));
+  if (unknown >= 0) {
+    const field = choice.roles ? `/roles/${unknown}` : '/role';
+    throw new InvalidInput(`${JSON.stringify(named[unknown])} is not a role; the roles are ${ROLES.join(', ')}.`, [{ field, detail: 'unknown role' }]);
+  }
+  if (new Set(named).size !== named.length) throw new InvalidInput('A role is named twice.', [{ field: '/roles', detail: 'repeated role' }]);
+  return sortedRoles(named);
 }
 
 export function normaliseEmail(email: string): string {
@@ -41,17 +69,18 @@ export function checkPassword(password: string): void {
  * `passwordHash`: the password hashed already (so a caller can hash before it takes locks).
  */
 export async function createUser(
-  input: { organisationId: string; email: string; name?: string; role: Role; password: string },
+  input: { organisationId: string; email: string; name?: string; password: string } & RoleChoice,
   opts: { transaction?: Transaction; passwordHash?: string } = {},
 ): Promise<User> {
   checkPassword(input.password);
+  const roles = chosenRoles(input);
   const email = normaliseEmail(input.email);
   const taken = () => new Conflict(`An account for ${email} exists already.`, 'account-exists');
   if (await User.findOne({ where: { email, removedAt: null }, transaction: opts.transaction })) throw taken();
   const passwordHash = opts.passwordHash ?? (await hashPassword(input.password));
   try {
     return await User.create(
-      { organisationId: input.organisationId, email, name: input.name?.trim() ?? '', role: input.role, passwordHash },
+      { organisationId: input.organisationId, email, name: input.name?.trim() ?? '', roles, passwordHash },
       { transaction: opts.transaction },
     );
   } catch (err) {
@@ -73,7 +102,7 @@ async function activeUser(organisationId: string, userId: string, transaction: T
 }
 
 async function otherAdmins(organisationId: string, userId: string, transaction: Transaction): Promise<number> {
-  return User.count({ where: { organisationId, role: 'admin', removedAt: null, id: { [Op.ne]: userId } }, transaction });
+  return User.count({ where: { organisationId, roles: { [Op.contains]: ['admin'] }, removedAt: null, id: { [Op.ne]: userId } }, transaction });
 }
 
 /**
@@ -110,19 +139,25 @@ async function revokeInvitationsSentBy(
   }
 }
 
-export async function changeRole(actor: Actor & { principal: { organisationId: string } }, userId: string, role: Role): Promise<UserView> {
+/**
+ * Gives a user these roles (one or more). Taking admin from the last user who holds it is refused,
+ * whatever other roles they keep; whoever loses admin loses the invitations they sent.
+ */
+export async function changeRoles(actor: Actor & { principal: { organisationId: string } }, userId: string, choice: RoleChoice): Promise<UserView> {
+  const roles = chosenRoles(choice);
   const organisationId = actor.principal.organisationId;
   return User.sequelize!.transaction(async (transaction) => {
     await lockAdminChanges(organisationId, transaction);
     const user = await activeUser(organisationId, userId, transaction);
-    if (user.role === role) return userView(user);
-    if (user.role === 'admin' && (await otherAdmins(organisationId, user.id, transaction)) === 0) {
+    const before = sortedRoles(user.roles);
+    if (before.join() === roles.join()) return userView(user);
+    const losesAdmin = before.includes('admin') && !roles.includes('admin');
+    if (losesAdmin && (await otherAdmins(organisationId, user.id, transaction)) === 0) {
       throw new Conflict('This is the last admin of the organisation; make another user admin first.', 'last-admin');
     }
-    const from = user.role;
-    await user.update({ role }, { transaction });
-    await recordAudit(organisationId, actor, 'user.role-changed', { kind: 'user', id: user.id }, { email: user.email, from, to: role }, transaction);
-    if (from === 'admin') await revokeInvitationsSentBy(actor, user, 'inviter-demoted', transaction);
+    await user.update({ roles }, { transaction });
+    await recordAudit(organisationId, actor, 'user.role-changed', { kind: 'user', id: user.id }, { email: user.email, changes: [{ field: '/roles', before, after: roles }] }, transaction);
+    if (losesAdmin) await revokeInvitationsSentBy(actor, user, 'inviter-demoted', transaction);
     return userView(user);
   });
 }
@@ -133,13 +168,13 @@ export async function removeUser(actor: Actor & { principal: { organisationId: s
   await User.sequelize!.transaction(async (transaction) => {
     await lockAdminChanges(organisationId, transaction);
     const user = await activeUser(organisationId, userId, transaction);
-    if (user.role === 'admin' && (await otherAdmins(organisationId, user.id, transaction)) === 0) {
+    if (user.roles.includes('admin') && (await otherAdmins(organisationId, user.id, transaction)) === 0) {
       throw new Conflict('This is the last admin of the organisation; it cannot be removed.', 'last-admin');
     }
     const now = new Date();
     await user.update({ removedAt: now, removedBy: actor.principal.userId ?? null }, { transaction });
     await Session.update({ revokedAt: now }, { where: { userId: user.id, revokedAt: null }, transaction });
-    await recordAudit(organisationId, actor, 'user.removed', { kind: 'user', id: user.id }, { email: user.email, role: user.role }, transaction);
+    await recordAudit(organisationId, actor, 'user.removed', { kind: 'user', id: user.id }, { email: user.email, roles: sortedRoles(user.roles) }, transaction);
     await revokeInvitationsSentBy(actor, user, 'inviter-removed', transaction);
   });
 }

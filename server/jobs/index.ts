@@ -17,6 +17,7 @@ import { deliverAlertEmail } from './alert-email';
 import { deliverWebhookBatch, type DeliveryJob, type JobDeps } from './webhook-delivery';
 import { drainOnce, EMAIL_QUEUE, recoverStalled, WEBHOOK_QUEUE, type DrainLimits, type QueueOptions } from './outbox';
 import { startWorkerLoop } from './worker-loop';
+import { startCheckpointSchedule } from './checkpoint-schedule';
 import { secretBox } from '../core/secret-box';
 
 export { EMAIL_QUEUE, WEBHOOK_QUEUE } from './outbox';
@@ -48,6 +49,24 @@ export interface RunningJobs {
 
 const describe = (err: unknown) => ({ message: String((err as Error)?.message ?? err).slice(0, 300) });
 
+/**
+ * Creating a queue is idempotent in pg-boss, but two processes creating the same queue on a fresh
+ * database at the same moment can deadlock (or collide on its unique name) inside pg-boss's own
+ * statements; PostgreSQL then aborts one of them. That one simply tries again, a little later.
+ */
+async function createQueueRetrying(create: () => Promise<unknown>): Promise<void> {
+  for (let attempt = 1; ; attempt++) {
+    try {
+      await create();
+      return;
+    } catch (err) {
+      const code = (err as { code?: string }).code;
+      if (attempt >= 5 || (code !== '40P01' && code !== '23505' && code !== '40001')) throw err;
+      await new Promise((r) => setTimeout(r, 50 * attempt + Math.random() * 100));
+    }
+  }
+}
+
 export async function startJobs(ctx: AppContext): Promise<RunningJobs> {
   const { logger, config } = ctx;
   const url = config.databaseUrl!;
@@ -62,8 +81,8 @@ export async function startJobs(ctx: AppContext): Promise<RunningJobs> {
     webhook: { retryLimit: 5, retryDelay: 5, retryBackoff: true, expireInSeconds: Math.ceil(v.webhookTimeoutMs / 1000) + 60 },
     email: { retryLimit: v.webhookRetryLimit, retryDelay: v.webhookRetryDelaySeconds, retryBackoff: true },
   };
-  await boss.createQueue(WEBHOOK_QUEUE, { name: WEBHOOK_QUEUE, ...queues.webhook });
-  await boss.createQueue(EMAIL_QUEUE, { name: EMAIL_QUEUE, ...queues.email });
+  await createQueueRetrying(() => boss.createQueue(WEBHOOK_QUEUE, { name: WEBHOOK_QUEUE, ...queues.webhook }));
+  await createQueueRetrying(() => boss.createQueue(EMAIL_QUEUE, { name: EMAIL_QUEUE, ...queues.email }));
   const pool = new pg.Pool({ connectionString: url, max: 6, application_name: 'lotproof-jobs', connectionTimeoutMillis: 5_000, options: '-c synchronous_commit=off' });
   pool.on('error', (err) => logger.debug({ err: describe(err) }, 'job pool connection lost'));
 
@@ -141,6 +160,7 @@ export async function startJobs(ctx: AppContext): Promise<RunningJobs> {
   const timer = setInterval(() => void drain(), DRAIN_EVERY_MS);
   timer.unref();
   void drain();
+  const checkpoints = startCheckpointSchedule({ sequelize: ctx.db.sequelize, config, logger });
 
   let stopping: Promise<void> | null = null;
   return {
@@ -151,7 +171,7 @@ export async function startJobs(ctx: AppContext): Promise<RunningJobs> {
         clearInterval(timer);
         ledgerEvents.off('appended', onAppended);
         stopped = true;
-        await draining;
+        await Promise.all([draining, checkpoints.stop()]);
         // Deliveries under way may finish (a receiver has the timeout to answer); what is still
         // running after that is recovered by the next process (recoverStalled).
         await Promise.all([webhooks.stop(Math.min(v.webhookTimeoutMs, 10_000) + 1_000), emails.stop(5_000)]);

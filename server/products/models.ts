@@ -14,6 +14,9 @@ export class Product extends Model {
   declare density: number | null;
   declare rulebook: { id: string; params?: Record<string, unknown> };
   declare alertRecipients: string[];
+  /** The plausible band of a pack's net quantity, as fractions of the nominal quantity; null = the default. */
+  declare plausibilityMinFraction: number | null;
+  declare plausibilityMaxFraction: number | null;
   declare createdAt: Date;
   declare updatedAt: Date;
   declare archivedAt: Date | null;
@@ -35,6 +38,8 @@ export function initProduct(sequelize: Sequelize): void {
       density: { type: DataTypes.DOUBLE },
       rulebook: { type: DataTypes.JSONB, allowNull: false },
       alertRecipients: { type: DataTypes.ARRAY(DataTypes.TEXT), allowNull: false, defaultValue: [] },
+      plausibilityMinFraction: { type: DataTypes.DOUBLE, field: 'plausibility_min_fraction' },
+      plausibilityMaxFraction: { type: DataTypes.DOUBLE, field: 'plausibility_max_fraction' },
       createdAt: { type: DataTypes.DATE, allowNull: false, defaultValue: DataTypes.NOW },
       updatedAt: { type: DataTypes.DATE, allowNull: false, defaultValue: DataTypes.NOW },
       archivedAt: { type: DataTypes.DATE },

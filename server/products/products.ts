@@ -1,12 +1,18 @@
 // Products: the spec a lot is judged against. Editing a product never touches a stored verdict:
-// each verdict keeps a copy of the spec it was judged with.
-import { Op, QueryTypes, UniqueConstraintError } from 'sequelize';
+// each verdict keeps a copy of the spec it was judged with. Every change (create, change, archive)
+// is written to the organisation's audit trail in its own transaction, with the before and after of
+// each field it changed (product-changes.ts).
+import { Op, QueryTypes, UniqueConstraintError, type Transaction } from 'sequelize';
 import { evaluateLot, listRulebooks, type ProductSpec } from '../../shared/engine';
+import { DEFAULT_PLAUSIBILITY } from '../../shared/plausibility';
 import type { components } from '../../shared/api/schema';
 import { Conflict, InvalidInput, NotFound, Refused, TooLarge } from '../core/errors';
 import { Product } from './models';
 import type { Principal } from '../core/principal';
 import { decodeCursor, encodeCursor } from '../core/cursor';
+// The organisation's audit trail is the identity area's; product changes are written to it too.
+import { recordAudit, type AuditAction } from '../identity/audit-trail';
+import { ARCHIVED, fieldChanges, NO_PRODUCT, type FieldChange, type ProductFields } from './product-changes';
 
 export type ProductInput = components['schemas']['ProductInput'];
 export type ProductPatch = components['schemas']['ProductPatch'];
@@ -41,6 +47,19 @@ function checkSize(fields: Record<string, unknown>): void {
   if (bytes > PRODUCT_MAX_BYTES) throw new TooLarge(`the product takes ${bytes} bytes as JSON; at most ${PRODUCT_MAX_BYTES} are accepted`);
 }
 
+/** A product's plausible band: its own, or the default (0.5–2 × Qn, common practice: shared/plausibility.ts). */
+export function plausibilityOf(p: Pick<Product, 'plausibilityMinFraction' | 'plausibilityMaxFraction'>): { minFraction: number; maxFraction: number } {
+  return p.plausibilityMinFraction !== null && p.plausibilityMinFraction !== undefined && p.plausibilityMaxFraction !== null && p.plausibilityMaxFraction !== undefined
+    ? { minFraction: p.plausibilityMinFraction, maxFraction: p.plausibilityMaxFraction }
+    : { ...DEFAULT_PLAUSIBILITY };
+}
+
+function checkPlausibility(band: { minFraction: number; maxFraction: number } | null | undefined): void {
+  if (band && !(band.maxFraction > band.minFraction)) {
+    throw new InvalidInput('the plausible band is empty: maxFraction must be above minFraction', [{ field: '/plausibility/maxFraction', detail: `must be above minFraction (${band.minFraction})` }]);
+  }
+}
+
 export function productView(p: Product): ProductView {
   return {
     id: p.id,
@@ -55,6 +74,7 @@ export function productView(p: Product): ProductView {
     density: p.density,
     rulebook: ownParams(p.rulebook) as ProductView['rulebook'],
     alertRecipients: p.alertRecipients,
+    plausibility: plausibilityOf(p),
     createdAt: p.createdAt.toISOString(),
     updatedAt: p.updatedAt.toISOString(),
   };
@@ -135,7 +155,36 @@ function skuTaken(sku: string): Conflict {
   return new Conflict(`an active product with SKU ${JSON.stringify(sku)} already exists`, 'sku-taken');
 }
 
-export async function createProduct(principal: Principal, input: ProductInput): Promise<ProductView> {
+/** Where a request came from, for the audit trail (the principal itself is passed beside it). */
+export interface RequestOrigin {
+  ip?: string | null;
+}
+
+/** The change's audit event, in the change's own transaction: both are stored, or neither. */
+function audit(principal: Principal, from: RequestOrigin, action: AuditAction, p: Product, changes: FieldChange[], transaction: Transaction): Promise<void> {
+  return recordAudit(principal.organisationId, { principal, ip: from.ip ?? null }, action, { kind: 'product', id: p.id }, { sku: p.sku, name: p.name, changes }, transaction);
+}
+
+function fieldsOf(p: ProductView | Product): ProductFields {
+  return {
+    sku: p.sku,
+    name: p.name,
+    description: p.description,
+    nominalQuantity: p.nominalQuantity,
+    unit: p.unit,
+    tareMode: p.tareMode,
+    fixedTare: p.fixedTare ?? null,
+    tareUnit: p.tareUnit ?? null,
+    density: p.density ?? null,
+    rulebook: ownParams(p.rulebook as { id: string; params?: Record<string, unknown> }),
+    alertRecipients: [...p.alertRecipients],
+    plausibility: p instanceof Product ? plausibilityOf(p) : (p.plausibility ?? { ...DEFAULT_PLAUSIBILITY }),
+  };
+}
+
+const inTransaction = <T>(work: (t: Transaction) => Promise<T>): Promise<T> => Product.sequelize!.transaction(work);
+
+export async function createProduct(principal: Principal, input: ProductInput, from: RequestOrigin = {}): Promise<ProductView> {
   const fields = {
     sku: input.sku,
     name: input.name,
@@ -148,12 +197,19 @@ export async function createProduct(principal: Principal, input: ProductInput): 
     density: input.density ?? null,
     rulebook: ownParams(input.rulebook) as ProductInput['rulebook'],
     alertRecipients: normaliseRecipients(input.alertRecipients),
+    plausibilityMinFraction: input.plausibility?.minFraction ?? null,
+    plausibilityMaxFraction: input.plausibility?.maxFraction ?? null,
   };
+  checkPlausibility(input.plausibility);
   checkSize(fields);
   checkSpec(specOf(fields));
   await checkRecipients(principal.organisationId, input.alertRecipients);
   try {
-    const p = await Product.create({ ...fields, organisationId: principal.organisationId });
+    const p = await inTransaction(async (transaction) => {
+      const made = await Product.create({ ...fields, organisationId: principal.organisationId }, { transaction });
+      await audit(principal, from, 'product.created', made, fieldChanges(NO_PRODUCT, fieldsOf(made)), transaction);
+      return made;
+    });
     return productView(p);
   } catch (err) {
     if (err instanceof UniqueConstraintError) throw skuTaken(input.sku);
@@ -161,8 +217,9 @@ export async function createProduct(principal: Principal, input: ProductInput): 
   }
 }
 
-async function findActive(organisationId: string, id: string): Promise<Product> {
-  const p = await Product.findOne({ where: { id, organisationId, archivedAt: null } });
+async function findActive(organisationId: string, id: string, transaction?: Transaction): Promise<Product> {
+  // Under a change, the row is held (FOR UPDATE) so that its "before" is what the change replaces.
+  const p = await Product.findOne({ where: { id, organisationId, archivedAt: null }, ...(transaction ? { transaction, lock: transaction.LOCK.UPDATE } : {}) });
   if (!p) throw new NotFound(`no product ${id} in your organisation`);
   return p;
 }
@@ -171,41 +228,68 @@ export async function getProduct(principal: Principal, id: string): Promise<Prod
   return productView(await findActive(principal.organisationId, id));
 }
 
-export async function updateProduct(principal: Principal, id: string, patch: ProductPatch): Promise<ProductView> {
-  const p = await findActive(principal.organisationId, id);
+/** The product with a patch applied, checked the way a new product is. */
+function patched(p: Product, patch: ProductPatch): ProductView {
   const next = { ...productView(p), ...patch } as ProductView;
   if (patch.rulebook) next.rulebook = ownParams(patch.rulebook) as ProductView['rulebook'];
   if (patch.alertRecipients) next.alertRecipients = normaliseRecipients(patch.alertRecipients);
+  if (patch.plausibility === null) next.plausibility = { ...DEFAULT_PLAUSIBILITY };
+  checkPlausibility(patch.plausibility);
   checkSize(next);
   checkSpec(specOf(next));
+  return next;
+}
+
+export async function updateProduct(principal: Principal, id: string, patch: ProductPatch, from: RequestOrigin = {}): Promise<ProductView> {
+  // Checked before any lock is taken (a refused patch costs no transaction) and again on the row as held.
+  patched(await findActive(principal.organisationId, id), patch);
   // Only the list as sent is checked: a change of another field is not refused because a user
   // named before has since left (their address stays until the list is changed).
   await checkRecipients(principal.organisationId, patch.alertRecipients);
   try {
-    await p.update({
-      sku: next.sku,
-      name: next.name,
-      description: next.description,
-      nominalQuantity: next.nominalQuantity,
-      unit: next.unit,
-      tareMode: next.tareMode,
-      fixedTare: next.fixedTare,
-      tareUnit: next.tareUnit,
-      density: next.density,
-      rulebook: next.rulebook,
-      alertRecipients: next.alertRecipients,
-      updatedAt: new Date(),
+    return await inTransaction(async (transaction) => {
+      const p = await findActive(principal.organisationId, id, transaction);
+      const next = patched(p, patch);
+      const changes = fieldChanges(fieldsOf(p), fieldsOf(next));
+      // A patch that changes nothing is no change: nothing written, nothing in the audit trail.
+      if (changes.length === 0) return productView(p);
+      await p.update(
+        {
+          sku: next.sku,
+          name: next.name,
+          description: next.description,
+          nominalQuantity: next.nominalQuantity,
+          unit: next.unit,
+          tareMode: next.tareMode,
+          fixedTare: next.fixedTare,
+          tareUnit: next.tareUnit,
+          density: next.density,
+          rulebook: next.rulebook,
+          alertRecipients: next.alertRecipients,
+          // a band sent is stored as sent; null returns the product to the default band
+          ...(patch.plausibility !== undefined
+            ? { plausibilityMinFraction: patch.plausibility?.minFraction ?? null, plausibilityMaxFraction: patch.plausibility?.maxFraction ?? null }
+            : {}),
+          updatedAt: new Date(),
+        },
+        { transaction },
+      );
+      await audit(principal, from, 'product.updated', p, changes, transaction);
+      return productView(p);
     });
   } catch (err) {
-    if (err instanceof UniqueConstraintError) throw skuTaken(next.sku);
+    if (err instanceof UniqueConstraintError) throw skuTaken(patch.sku ?? '');
     throw err;
   }
-  return productView(p);
 }
 
-export async function archiveProduct(principal: Principal, id: string): Promise<void> {
-  const p = await findActive(principal.organisationId, id);
-  await p.update({ archivedAt: new Date() });
+export async function archiveProduct(principal: Principal, id: string, from: RequestOrigin = {}): Promise<void> {
+  await inTransaction(async (transaction) => {
+    const p = await findActive(principal.organisationId, id, transaction);
+    const at = new Date();
+    await p.update({ archivedAt: at }, { transaction });
+    await audit(principal, from, 'product.archived', p, [{ field: ARCHIVED, before: null, after: at.toISOString() }], transaction);
+  });
 }
 
 const UUID = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/;

@@ -14,7 +14,7 @@ export function productHandlers(ctx: AppContext): Handlers {
     createProduct: async (req, res) => {
       const p = req.principal!;
       const r = await idempotent(sequelize, idempotencyClaim(req, 'createProduct'), async () => {
-        const v = await createProduct(p, req.body);
+        const v = await createProduct(p, req.body, { ip: req.ip ?? null });
         return { status: 201, value: v, resourceId: v.id };
       });
       sendStored(res, r);
@@ -23,10 +23,10 @@ export function productHandlers(ctx: AppContext): Handlers {
       res.json(await getProduct(req.principal!, String(req.params.productId)));
     },
     updateProduct: async (req, res) => {
-      res.json(await updateProduct(req.principal!, String(req.params.productId), req.body));
+      res.json(await updateProduct(req.principal!, String(req.params.productId), req.body, { ip: req.ip ?? null }));
     },
     archiveProduct: async (req, res) => {
-      await archiveProduct(req.principal!, String(req.params.productId));
+      await archiveProduct(req.principal!, String(req.params.productId), { ip: req.ip ?? null });
       res.status(204).end();
     },
   };

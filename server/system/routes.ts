@@ -3,6 +3,7 @@ import type { AppContext, Handlers } from '../http/context';
 import { Organisation } from '../identity/organisation-model';
 import { User } from '../identity/models';
 import { NotFoundProblem } from '../http/problem';
+import { primaryRole } from '../core/principal';
 
 export function systemHandlers(ctx: AppContext): Handlers {
   return {
@@ -34,7 +35,8 @@ export function systemHandlers(ctx: AppContext): Handlers {
         organisation: { id: org.id, name: org.name, demo: org.demo },
         kind: p.kind,
         scopes: p.scopes,
-        ...(p.role ? { role: p.role } : {}),
+        // `roles` of a session, and its first as `role` for clients written when a user had one role
+        ...(p.roles?.length ? { role: primaryRole(p.roles), roles: p.roles } : {}),
         ...(p.keyId ? { keyId: p.keyId } : {}),
         ...(p.userId ? { userId: p.userId } : {}),
         ...(user ? { email: user.email } : {}),

@@ -1,17 +1,33 @@
-// Exports: CSV (one summary row per verdict, for spreadsheets) and NDJSON (one sealed document per
-// line, for the offline verifier). Oldest first, streamed page by page, in chunks of about 64 KiB,
-// giving other requests a turn at least every 10 ms of work so /healthz and lots are never held up.
+// Exports: CSV (one summary row per verdict, for spreadsheets) and NDJSON v2 (a header naming a
+// signed checkpoint, then one sealed document a line with its inclusion proof in that checkpoint, for
+// the offline verifier; clients/verifier/FORMAT.md). Oldest first, streamed page by page, in chunks
+// of about 64 KiB, giving other requests a turn at least every 10 ms of work so /healthz and lots are
+// never held up. The proofs of a page are computed together, from one read of the tree's nodes.
 import { setImmediate as nextTurn } from 'node:timers/promises';
 import { QueryTypes, type Sequelize } from 'sequelize';
+import type { Config } from '../config';
+import { InvalidInput, Refused } from '../core/errors';
 import type { Principal } from '../core/principal';
+import { checkpointAt, type Checkpoint } from '../ledger/checkpoints';
+import { ensureCheckpoint } from '../ledger/issue';
+import { inclusionProofs, type InclusionProof } from '../ledger/proofs';
+import { canonicalJson } from './canonical';
 import { filterSql, type VerdictFilter } from './stored-verdicts';
-import { sealedDocumentText, type VerdictRow } from './verdict-records';
+import { DOCUMENT_FORMAT, sealedDocumentText, type VerdictRow } from './verdict-records';
+
+export const EXPORT_FORMAT = 'lotproof.export/2';
 
 const CSV_COLUMNS = [
   'sequence', 'verdict_id', 'recorded_at', 'product_sku', 'product_name', 'lot_code', 'line', 'packed_at', 'lot_size', 'testing',
   'measurement_count', 'decision', 'mean', 'standard_deviation', 'unit', 'nominal_quantity', 'rulebook', 'engine_version',
-  'first_sample_verdict_id', 'seal', 'previous_seal',
+  'first_sample_verdict_id', 'retest_of_verdict_id', 'retest_reason', 'submitted_by', 'seal', 'previous_seal',
 ] as const;
+
+/** Who submitted a verdict, in one CSV field: the user's e-mail, or the key's name and visible prefix. */
+function submitterText(s: VerdictRow['submitted_by']): string | null {
+  if (!s) return null;
+  return s.kind === 'user' ? s.email : `API key ${s.name} (${s.prefix})`;
+}
 
 /** RFC 4180 field; a leading = + - @ is prefixed with ' so spreadsheets do not run it as a formula. */
 function csvField(v: unknown): string {
@@ -54,16 +70,67 @@ const CHUNK_CHARS = 64 * 1024;
 /** Work done without a break before other requests get a turn. */
 const SLICE_MS = 10;
 
+/** The NDJSON header line (FORMAT.md, "NDJSON export"), canonical JSON. */
+function exportHeader(checkpoint: Checkpoint, filter: Record<string, string> | null, from: number): string {
+  return canonicalJson({
+    checkpoint,
+    complete: filter === null,
+    filter,
+    format: EXPORT_FORMAT,
+    from,
+    organisationId: checkpoint.organisationId,
+    to: checkpoint.treeSize,
+  });
+}
+
+/** The filters applied, by name, or null when none is. */
+function appliedFilter(filter: VerdictFilter): Record<string, string> | null {
+  const applied = Object.fromEntries(Object.entries(filter).filter(([, v]) => typeof v === 'string')) as Record<string, string>;
+  return Object.keys(applied).length > 0 ? applied : null;
+}
+
+/** The sealed document with its inclusion proof, as canonical JSON ("inclusion" sorts between "format" and "kid"). */
+const DOCUMENT_START = `{"format":${JSON.stringify(DOCUMENT_FORMAT)},`;
+function withInclusion(documentText: string, proof: InclusionProof): string {
+  const inclusion = `"inclusion":{"hashes":${JSON.stringify(proof.hashes)},"leafIndex":${proof.leafIndex},"treeSize":${proof.treeSize}},`;
+  return DOCUMENT_START + inclusion + documentText.slice(DOCUMENT_START.length);
+}
+
+export interface ExportOptions {
+  /** NDJSON: export only positions after this pinned checkpoint's tree size. */
+  fromSize?: number;
+}
+
 export async function* exportVerdicts(
   sequelize: Sequelize,
+  config: Pick<Config, 'dataDir' | 'verdicts'>,
   principal: Principal,
   format: 'csv' | 'ndjson',
   filter: VerdictFilter,
+  options: ExportOptions = {},
 ): AsyncGenerator<string> {
   const { where, bind } = filterSql(principal.organisationId, filter);
-  if (format === 'csv') yield CSV_COLUMNS.join(',') + '\r\n';
   let after = 0;
-  const page = format === 'csv' ? 500 : 50;
+  // NDJSON: positions up to the checkpoint the proofs are against, issued first when the chain grew.
+  let upTo = Number.MAX_SAFE_INTEGER;
+  let checkpoint: Checkpoint | null = null;
+  if (format === 'csv') yield CSV_COLUMNS.join(',') + '\r\n';
+  else {
+    checkpoint = (await ensureCheckpoint(sequelize, config, principal.organisationId)).checkpoint;
+    if (options.fromSize !== undefined) {
+      const pinned = await checkpointAt(sequelize, principal.organisationId, options.fromSize, '/fromSize');
+      if (pinned.treeSize >= checkpoint!.treeSize) {
+        throw new Refused('nothing-new', `nothing was appended after the checkpoint of tree size ${pinned.treeSize}, the latest`, [
+          { field: '/fromSize', detail: `the latest checkpoint has tree size ${checkpoint!.treeSize}` },
+        ]);
+      }
+      after = pinned.treeSize;
+    }
+    if (!checkpoint) return; // an empty ledger: nothing to export, nothing to prove
+    upTo = checkpoint.treeSize;
+    yield exportHeader(checkpoint, appliedFilter(filter), after + 1) + '\n';
+  }
+  const page = format === 'csv' ? 500 : 200;
   for (;;) {
     // A CSV row needs four numbers of the stored result and spec, so only they are read (as jsonb,
     // parsed as before): parsing each whole result held the event loop for 50 ms a page.
@@ -72,30 +139,32 @@ export async function* exportVerdicts(
         ? `id, sequence, recorded_at, product_sku, product_name, lot_code, line, packed_at, lot_size, testing, measurement_count,
            decision, result #> '{statistics,descriptive,mean}' AS mean, result #> '{statistics,descriptive,standardDeviation}' AS standard_deviation,
            product_spec -> 'unit' AS unit, product_spec -> 'nominalQuantity' AS nominal_quantity,
-           rulebook_id, rulebook_version, engine_version, first_sample_verdict_id, seal, previous_seal`
+           rulebook_id, rulebook_version, engine_version, first_sample_verdict_id, retest_of_verdict_id, retest_reason, submitted_by, seal, previous_seal`
         : // a big record is left out here and read in slices below (octet_length reads no record)
           `sequence, seal, signature, kid, CASE WHEN octet_length(record) <= ${RECORD_SLICE_CHARS} THEN record END AS record`;
     const rows = await sequelize.query<VerdictRow & CsvNumbers>(
-      `SELECT ${cols} FROM verdicts WHERE ${where} AND sequence > $${bind.length + 1} ORDER BY sequence LIMIT $${bind.length + 2}`,
-      { bind: [...bind, after, page], type: QueryTypes.SELECT },
+      `SELECT ${cols} FROM verdicts WHERE ${where} AND sequence > $${bind.length + 1} AND sequence <= $${bind.length + 3} ORDER BY sequence LIMIT $${bind.length + 2}`,
+      { bind: [...bind, after, page, upTo], type: QueryTypes.SELECT },
     );
+    const proofs = format === 'ndjson' ? await inclusionProofs(sequelize, principal.organisationId, rows.map((r) => Number(r.sequence) - 1), upTo) : [];
     let chunk = '';
     let slice = performance.now();
-    for (const r of rows) {
+    for (const [i, r] of rows.entries()) {
       if (format === 'ndjson' && r.record === null) {
         // The document around the record, as sealedDocumentText writes it, and the record between in slices.
-        const [head, tail] = sealedDocumentText({ seal: r.seal, signature: r.signature, kid: r.kid, record: '\u0000' }).split('\u0000');
+        const [head, tail] = withInclusion(sealedDocumentText({ seal: r.seal, signature: r.signature, kid: r.kid, record: '\u0000' }), proofs[i]!).split('\u0000');
         yield chunk + head;
         chunk = '';
         for await (const part of recordSlices(sequelize, principal.organisationId, Number(r.sequence))) yield part;
         chunk = tail + '\n';
       } else if (format === 'ndjson') {
-        chunk += sealedDocumentText({ seal: r.seal, signature: r.signature, kid: r.kid, record: r.record! }) + '\n';
+        chunk += withInclusion(sealedDocumentText({ seal: r.seal, signature: r.signature, kid: r.kid, record: r.record! }), proofs[i]!) + '\n';
       } else {
         chunk += [
           r.sequence, r.id, r.recorded_at, r.product_sku, r.product_name, r.lot_code, r.line, r.packed_at, r.lot_size, r.testing,
           r.measurement_count, r.decision, r.mean, r.standard_deviation, r.unit, r.nominal_quantity,
-          `${r.rulebook_id}@${r.rulebook_version}`, r.engine_version, r.first_sample_verdict_id, r.seal, r.previous_seal,
+          `${r.rulebook_id}@${r.rulebook_version}`, r.engine_version, r.first_sample_verdict_id, r.retest_of_verdict_id, r.retest_reason,
+          submitterText(r.submitted_by), r.seal, r.previous_seal,
         ].map(csvField).join(',') + '\r\n';
       }
       if (chunk.length >= CHUNK_CHARS) {
@@ -111,4 +180,12 @@ export async function* exportVerdicts(
     if (rows.length < page) return;
     after = Number(rows[rows.length - 1]!.sequence);
   }
+}
+
+/** fromSize only means something for NDJSON (the pinned checkpoint the reader holds). */
+export function exportOptionsOf(format: 'csv' | 'ndjson', fromSize: number | undefined): ExportOptions {
+  if (fromSize !== undefined && format !== 'ndjson') {
+    throw new InvalidInput('fromSize applies to NDJSON exports only', [{ field: '/fromSize', detail: 'use it with format=ndjson' }]);
+  }
+  return { fromSize };
 }

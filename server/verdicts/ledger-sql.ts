@@ -21,9 +21,10 @@ const VERDICT_COLUMNS: Columns = [
   ['kid', ''], ['record', ''], ['product_id', '::uuid'], ['product_sku', ''], ['product_name', ''], ['product_spec', '::json'],
   ['lot_code', ''], ['line', ''], ['packed_at', '::timestamptz'], ['lot_size', '::integer'], ['testing', ''], ['measurement_unit', ''],
   ['measurement_count', '::integer'], ['client_reference', ''], ['source_format', ''], ['first_sample_verdict_id', '::uuid'],
+  ['retest_of_verdict_id', '::uuid'], ['retest_reason', ''], ['submitted_by', '::json'],
   ['decision', ''], ['result', '::json'], ['engine_version', ''], ['rulebook_id', ''], ['rulebook_version', ''], ['recorded_at', '::timestamptz'],
 ];
-const JSON_COLUMNS = new Set(['product_spec', 'result']);
+const JSON_COLUMNS = new Set(['product_spec', 'result', 'submitted_by']);
 
 const DELIVERY_COLUMNS: Columns = [['id', '::uuid'], ['organisation_id', '::uuid'], ['endpoint_id', '::uuid'], ['verdict_id', '::uuid'], ['event_type', ''], ['payload', '']];
 const EMAIL_COLUMNS: Columns = [['id', '::uuid'], ['organisation_id', '::uuid'], ['verdict_id', '::uuid'], ['recipients', '::text[]'], ['subject', ''], ['body', '']];
@@ -40,11 +41,22 @@ export function emailValues(e: { id: string; organisationId: string; verdictId: 
   return [e.id, e.organisationId, e.verdictId, e.recipients, e.subject, e.text];
 }
 
-/** What the batch reads under the locks: each chain's head, stored replies, taken first samples, subscribed endpoints. */
+/** The latest judgement of a lot (organisation, product, lot code), as read under the lock. */
+export interface LotHead {
+  organisation_id: string;
+  product_id: string;
+  lot_code: string;
+  id: string;
+  decision: string;
+  first_sample_verdict_id: string | null;
+}
+
+/** What the batch reads under the locks: each chain's head, stored replies, taken first samples, the lots' latest judgements, subscribed endpoints. */
 export interface ReadUnderLock {
   heads: { id: string; sequence: number | null; seal: string | null }[];
   keys: (PriorReply & { organisation_id: string; key: string })[];
   taken: string[];
+  lots: LotHead[];
   endpoints: EndpointSubscription[];
 }
 
@@ -55,7 +67,7 @@ export interface ReadUnderLock {
  */
 export async function beginAndReadUnderLock(
   conn: PgClient,
-  batch: { organisations: string[]; claims: [string, string][]; operation: string; firstSampleIds: string[] },
+  batch: { organisations: string[]; claims: [string, string][]; operation: string; firstSampleIds: string[]; lots: [string, string, string][] },
 ): Promise<ReadUnderLock> {
   const orgs = [...batch.organisations].sort();
   for (const o of orgs) if (!UUID.test(o)) throw new Error(`not an organisation id: ${JSON.stringify(o)}`);
@@ -69,6 +81,11 @@ export async function beginAndReadUnderLock(
           ${priorRepliesUnderLock(lit(batch.claims), conn.escapeLiteral(batch.operation))} AS keys,
           (SELECT coalesce(json_agg(first_sample_verdict_id), '[]') FROM verdicts
              WHERE first_sample_verdict_id IN (SELECT x::uuid FROM json_array_elements_text(${lit(batch.firstSampleIds)}::json) x)) AS taken,
+          (SELECT coalesce(json_agg(json_build_object('organisation_id', l.o, 'product_id', l.p, 'lot_code', l.c, 'id', v.id, 'decision', v.decision,
+                                                      'first_sample_verdict_id', v.first_sample_verdict_id)), '[]')
+             FROM (SELECT DISTINCT x->>0 AS o, x->>1 AS p, x->>2 AS c FROM json_array_elements(${lit(batch.lots)}::json) x) l
+             JOIN LATERAL (SELECT id, decision, first_sample_verdict_id FROM verdicts
+                            WHERE organisation_id = l.o::uuid AND product_id = l.p::uuid AND lot_code = l.c ORDER BY sequence DESC LIMIT 1) v ON true) AS lots,
           (SELECT coalesce(json_agg(json_build_object('id', w.id, 'organisation_id', w.organisation_id, 'events', w.events)), '[]')
              FROM webhook_endpoints w
              WHERE w.organisation_id IN (SELECT x::uuid FROM json_array_elements_text(${lit(orgs)}::json) x) AND w.enabled AND w.deleted_at IS NULL) AS endpoints`;

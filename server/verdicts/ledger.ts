@@ -10,13 +10,15 @@
 // one without its verdict.
 import { createHash, randomUUID } from 'node:crypto';
 import { EventEmitter } from 'node:events';
+import { setImmediate as nextTurn } from 'node:timers/promises';
 import type { Sequelize } from 'sequelize';
 import type { Config } from '../config';
 import { Conflict } from '../core/errors';
 import { keyReused, type IdempotencyClaim, storedReplyRow } from '../core/idempotency';
 import { withConnection } from '../db/raw';
 import { alertEmailFor, deliveriesFor } from './notifications';
-import { beginAndReadUnderLock, deliveryValues, emailValues, insertAndCommit, verdictValues, type BatchRows, type ReadUnderLock } from './ledger-sql';
+import { beginAndReadUnderLock, deliveryValues, emailValues, insertAndCommit, verdictValues, type BatchRows, type LotHead, type ReadUnderLock } from './ledger-sql';
+import { lotRefusal } from './lot-judgements';
 import { currentSigningKey, publishSigningKey, signSeal, type SigningKey } from './signing-keys';
 import { assembleRecord, verdictView, type ChainPosition, type VerdictRow, type VerdictView } from './verdict-records';
 
@@ -46,6 +48,9 @@ interface Queued {
 /** Emits 'appended' after every commit that wrote notifications (the job drain listens). */
 export const ledgerEvents = new EventEmitter();
 ledgerEvents.setMaxListeners(100);
+
+/** A record with a part this big is sealed in one turn of the event loop and sent in the next. */
+const BIG_RECORD_BYTES = 1 << 20;
 
 /** Group-commit transactions in flight per process: the next batch links and seals while the one
  *  before it commits; the advisory lock still orders them, so the chain cannot fork. */
@@ -122,8 +127,18 @@ class Appender {
           claims: batch.flatMap((b) => (b.item.idempotency ? [[b.item.organisationId, b.item.idempotency.key] as [string, string]] : [])),
           operation: batch.find((b) => b.item.idempotency)?.item.idempotency!.operation ?? 'submitLot',
           firstSampleIds: batch.map((b) => b.item.row.first_sample_verdict_id).filter((x): x is string => x !== null),
+          lots: batch.map((b) => [b.item.organisationId, b.item.row.product_id, b.item.row.lot_code] as [string, string, string]),
         });
         const sealed = this.seal(batch, read, key);
+        // A turn of the event loop between sealing and sending: for a big lot each holds it for
+        // tens of ms (putting the record together and hashing it; pg copying it into the Bind
+        // message), and back to back they held it past 100 ms. (Two immediates: the first, from
+        // an I/O callback, runs before the loop polls again; after the second, timers and I/O
+        // have had their turn.)
+        if (batch.some((q) => [...q.item.parts.values()].some((part) => part.length >= BIG_RECORD_BYTES))) {
+          await nextTurn();
+          await nextTurn();
+        }
         inTransaction = false; // COMMIT is sent with the inserts: a failed insert ends the transaction too
         await insertAndCommit(conn, sealed.rows);
         return sealed;
@@ -147,12 +162,16 @@ class Appender {
   /**
    * Links each item of the batch to its chain's head and seals it, in queue order, or decides it
    * needs no new verdict: a key seen before replays (or is refused), a first sample that already
-   * has its second sample is a conflict. Returns each item's outcome and the rows to insert.
+   * has its second sample is a conflict, and so is a lot judged before unless this is its second
+   * sample or a re-test of its latest judgement (lot-judgements.ts) — the batch's own verdicts
+   * count as judged. Returns each item's outcome and the rows to insert.
    */
   private seal(batch: Queued[], read: ReadUnderLock, key: SigningKey): { outcomes: Map<Queued, Outcome>; rows: BatchRows } {
     const head = new Map(read.heads.map((h) => [h.id, { sequence: Number(h.sequence ?? 0), seal: h.seal }]));
     const existingKeys = new Map(read.keys.map((r) => [`${r.organisation_id}\n${r.key}`, r]));
     const takenFirst = new Set<string>(read.taken);
+    const lotKey = (org: string, product: string, lotCode: string) => `${org}\n${product}\n${lotCode}`;
+    const lots = new Map<string, LotHead>(read.lots.map((l) => [lotKey(l.organisation_id, l.product_id, l.lot_code), l]));
     const outcomes = new Map<Queued, Outcome>();
     const rows: BatchRows = { verdicts: [], replies: [], deliveries: [], emails: [] };
     const sameBatchKeys = new Map<string, { requestHash: string; queued: Queued }>();
@@ -174,13 +193,19 @@ class Appender {
         }
       }
       const first = it.row.first_sample_verdict_id;
-      if (first !== null) {
-        if (takenFirst.has(first)) {
-          outcomes.set(qd, new Conflict(`verdict ${first} already has a second sample; a first sample takes one second sample`, 'second-sample-exists'));
-          continue;
-        }
-        takenFirst.add(first);
+      const lot = lotKey(it.organisationId, it.row.product_id, it.row.lot_code);
+      const latest = lots.get(lot) ?? null;
+      if (first !== null && takenFirst.has(first) && !(latest && latest.first_sample_verdict_id === first)) {
+        const detail = `verdict ${first} already has a second sample; a first sample takes one second sample`;
+        outcomes.set(qd, new Conflict(detail, 'second-sample-exists', [{ field: '/firstSampleVerdictId', detail }]));
+        continue;
       }
+      const refusal = lotRefusal({ lotCode: it.row.lot_code, firstSampleId: first, retestOf: it.row.retest_of_verdict_id }, latest);
+      if (refusal) {
+        outcomes.set(qd, refusal);
+        continue;
+      }
+      if (first !== null) takenFirst.add(first);
       if (claim && claimId) sameBatchKeys.set(claimId, { requestHash: claim.requestHash, queued: qd });
 
       const h = head.get(it.organisationId)!;
@@ -200,6 +225,7 @@ class Appender {
       const view = verdictView(row);
       const body = JSON.stringify(view);
       outcomes.set(qd, { kind: 'created', status: 201, body, view });
+      lots.set(lot, { organisation_id: it.organisationId, product_id: row.product_id, lot_code: row.lot_code, id: row.id, decision: row.decision, first_sample_verdict_id: first });
       rows.verdicts.push(verdictValues(row, record));
       if (claim) rows.replies.push(storedReplyRow(claim, 201, body, row.id));
       for (const d of deliveriesFor(view, it.organisationId, read.endpoints, this.config.publicUrl)) {

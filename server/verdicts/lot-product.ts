@@ -8,6 +8,7 @@ import type { components } from '../../shared/api/schema';
 import { InvalidInput, Refused } from '../core/errors';
 import { freshReads, preparedRows } from '../db/raw';
 import { specOf } from '../products/products';
+import { DEFAULT_PLAUSIBILITY, type PlausibilityBand } from '../../shared/plausibility';
 import type { FirstSample } from './second-sample';
 
 type LotSubmission = components['schemas']['LotSubmission'];
@@ -26,10 +27,13 @@ export interface LotProduct {
   alert_recipients: string[];
   organisation_name: string;
   archived: boolean;
+  plausibility_min_fraction: number | null;
+  plausibility_max_fraction: number | null;
 }
 
 const PRODUCT_SELECT = `SELECT p.id, p.sku, p.name, p.nominal_quantity, p.unit, p.tare_mode, p.fixed_tare, p.tare_unit, p.density, p.rulebook,
-            p.alert_recipients, o.name AS organisation_name, p.archived_at IS NOT NULL AS archived
+            p.alert_recipients, o.name AS organisation_name, p.archived_at IS NOT NULL AS archived,
+            p.plausibility_min_fraction, p.plausibility_max_fraction
      FROM products p JOIN organisations o ON o.id = p.organisation_id
      WHERE p.organisation_id = $1`;
 const PRODUCT_BY_ID = `${PRODUCT_SELECT} AND p.id = $2`;
@@ -51,6 +55,13 @@ function productReader(sequelize: Sequelize): (key: string) => Promise<LotProduc
     productReaders.set(sequelize, r);
   }
   return r;
+}
+
+/** The product's plausibility band, or the default (0.5–2 × Qn, common practice: shared/plausibility.ts) when it sets none. */
+export function plausibilityBand(product: LotProduct): PlausibilityBand {
+  return product.plausibility_min_fraction !== null && product.plausibility_max_fraction !== null
+    ? { minFraction: product.plausibility_min_fraction, maxFraction: product.plausibility_max_fraction }
+    : DEFAULT_PLAUSIBILITY;
 }
 
 /** The field that named the product: productId when given for a first sample, else sku. */

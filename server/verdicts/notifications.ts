@@ -4,7 +4,8 @@
 import { randomUUID } from 'node:crypto';
 import type { VerdictView } from './verdict-records';
 
-export const WEBHOOK_EVENTS = ['verdict.created', 'verdict.nonconforming', 'verdict.second-sample-required'] as const;
+// ledger.checkpoint: each new signed checkpoint of the organisation's ledger (server/ledger/witnesses-outbox.ts).
+export const WEBHOOK_EVENTS = ['verdict.created', 'verdict.nonconforming', 'verdict.second-sample-required', 'ledger.checkpoint'] as const;
 export type WebhookEventType = (typeof WEBHOOK_EVENTS)[number];
 export const TEST_EVENT = 'webhook.test';
 

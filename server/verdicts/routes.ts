@@ -3,9 +3,9 @@
 import { listRulebooks } from '../../shared/engine';
 import type { AppContext, Handlers } from '../http/context';
 import { pageOf, sendJsonText } from '../http/replies';
-import { exportVerdicts } from './exports';
+import { exportOptionsOf, exportVerdicts } from './exports';
 import { submitLotRequest } from './lot-request.http';
-import { exportDocument, lookupSeal, verifyDocument, verifyLedger } from './seals';
+import { exportDocument, lookupSeal, verifyDocument } from './seals';
 import { jwks } from './signing-keys';
 import { getVerdict, isVerdictSort, listVerdicts, recomputeVerdict, type VerdictFilter } from './stored-verdicts';
 
@@ -57,13 +57,11 @@ export function verdictHandlers(ctx: AppContext): Handlers {
     verifySeal: async (req, res) => {
       res.json(await verifyDocument(sequelize, req.principal!, req.body));
     },
-    verifyLedger: async (req, res) => {
-      res.json(await verifyLedger(sequelize, req.principal!));
-    },
     exportVerdicts: async (req, res) => {
       const q = req.query as Record<string, unknown>;
       const format = q.format === 'csv' ? 'csv' : 'ndjson';
-      const chunks = exportVerdicts(sequelize, req.principal!, format, filterOf(q));
+      const options = exportOptionsOf(format, q.fromSize === undefined ? undefined : Number(q.fromSize));
+      const chunks = exportVerdicts(sequelize, config, req.principal!, format, filterOf(q), options);
       // Read the first chunk before committing to 200, so a database error is still a problem reply.
       const first = await chunks.next();
       const stamp = new Date().toISOString().slice(0, 10);

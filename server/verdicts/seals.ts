@@ -1,13 +1,12 @@
-// Seals and the chain: look a verdict up by its seal with its neighbours, check a sealed document
-// someone holds, and walk an organisation's whole chain to find the first break.
+// Seals and the chain: look a verdict up by its seal with its neighbours, and check a sealed document
+// someone holds. (The check of the chain itself lives in server/ledger/.)
 import { createHash } from 'node:crypto';
-import { setImmediate as nextTurn } from 'node:timers/promises';
 import { QueryTypes, type Sequelize } from 'sequelize';
 import type { components } from '../../shared/api/schema';
 import { NotFound } from '../core/errors';
 import { CanonicalisationError, canonicalJson } from './canonical';
 import type { Principal } from '../core/principal';
-import { publicKeyFor, verifySealSignature } from './signing-keys';
+import { publicKeyValidAt, verifySealSignature } from './signing-keys';
 import { findVerdictRow } from './stored-verdicts';
 import { DOCUMENT_FORMAT, sealedDocumentText, verdictView, type SealedDocument, type VerdictRecord } from './verdict-records';
 
@@ -54,12 +53,18 @@ export async function verifyDocument(sequelize: Sequelize, principal: Principal,
   const seal = doc.seal.toLowerCase();
   const hashMatches = computed === seal;
   if (computed !== null && !hashMatches) findings.push('the SHA-256 of the canonical record is not the seal: the record or the seal was changed');
-  const key = await publicKeyFor(sequelize, doc.kid);
+  // The key must have been valid when the record says it was sealed (its recordedAt in [nbf, exp)).
+  const recordedAt = (doc.record as Partial<VerdictRecord> | null)?.recordedAt;
+  const at = typeof recordedAt === 'string' ? new Date(recordedAt) : null;
   let signatureValid = false;
-  if (!key) findings.push(`no published key has kid ${JSON.stringify(doc.kid)}`);
+  if (!at || Number.isNaN(at.getTime())) findings.push('the record has no recordedAt to check the key\'s validity window against');
   else {
-    signatureValid = verifySealSignature(key, seal, doc.signature);
-    if (!signatureValid) findings.push('the signature does not verify for this seal and key');
+    const found = await publicKeyValidAt(sequelize, doc.kid, at);
+    if ('reason' in found) findings.push(found.message);
+    else {
+      signatureValid = verifySealSignature(found.key, seal, doc.signature);
+      if (!signatureValid) findings.push('the signature does not verify for this seal and key');
+    }
   }
   const rows = await sequelize.query<{ id: string; sequence: string; record: string }>(
     'SELECT id, sequence FROM verdicts WHERE organisation_id = $1 AND seal = $2',
@@ -81,63 +86,6 @@ export async function verifyDocument(sequelize: Sequelize, principal: Principal,
     computedSeal: computed,
     findings,
   };
-}
-
-/** Signature checks done without a break before other requests get a turn (each takes 0.1–0.5 ms). */
-const SLICE_MS = 10;
-
-/**
- * Walks the chain from the first verdict: each record must hash to its seal, be signed by a
- * published key, name its own position and the previous seal, and belong to the organisation.
- * The walk gives other requests a turn at least every 10 ms of checking, so a long chain never
- * holds up /healthz or lots.
- */
-export async function verifyLedger(sequelize: Sequelize, principal: Principal): Promise<components['schemas']['LedgerCheck']> {
-  const org = principal.organisationId;
-  const keys = new Map<string, Awaited<ReturnType<typeof publicKeyFor>>>();
-  let expectedSeq = 1;
-  let previous: string | null = null;
-  let checked = 0;
-  let head: { sequence: number; seal: string } | null = null;
-  const PAGE = 200;
-  for (;;) {
-    // Hash and read the records in the database, so a page of large lots never crosses the wire.
-    const rows = await sequelize.query<{
-      id: string; sequence: string; seal: string; previous_seal: string | null; signature: string; kid: string;
-      digest: string; rec_sequence: string | null; rec_previous: string | null; rec_org: string | null;
-    }>(
-      `SELECT v.id, v.sequence, v.seal, v.previous_seal, v.signature, v.kid,
-              encode(sha256(convert_to(v.record, 'UTF8')), 'hex') AS digest,
-              j.doc->>'sequence' AS rec_sequence, j.doc->>'previousSeal' AS rec_previous, j.doc->'organisation'->>'id' AS rec_org
-       FROM verdicts v CROSS JOIN LATERAL (SELECT v.record::json AS doc) j
-       WHERE v.organisation_id = $1 AND v.sequence >= $2 ORDER BY v.sequence LIMIT $3`,
-      { bind: [org, expectedSeq, PAGE], type: QueryTypes.SELECT },
-    );
-    let slice = performance.now();
-    for (const r of rows) {
-      if (performance.now() - slice >= SLICE_MS) {
-        await nextTurn();
-        slice = performance.now();
-      }
-      const seq = Number(r.sequence);
-      const brk = (reason: string) => ({ intact: false, verdictsChecked: checked, head, firstBreak: { sequence: seq, verdictId: r.id, reason } });
-      if (seq !== expectedSeq) return brk(`position ${expectedSeq} is missing`);
-      if (r.digest !== r.seal) return brk('the stored record does not hash to its seal');
-      if (Number(r.rec_sequence) !== seq) return brk('the record names another position');
-      if ((r.rec_previous ?? null) !== previous || (r.previous_seal ?? null) !== previous) return brk('the record does not link to the seal before it');
-      if (r.rec_org !== org) return brk('the record belongs to another organisation');
-      if (!keys.has(r.kid)) keys.set(r.kid, await publicKeyFor(sequelize, r.kid));
-      const key = keys.get(r.kid);
-      if (!key) return brk(`the signing key ${r.kid} is not published`);
-      if (!verifySealSignature(key, r.seal, r.signature)) return brk('the signature does not verify');
-      previous = r.seal;
-      head = { sequence: seq, seal: r.seal };
-      expectedSeq++;
-      checked++;
-    }
-    if (rows.length < PAGE) break;
-  }
-  return { intact: true, verdictsChecked: checked, head, firstBreak: null };
 }
 
 export { DOCUMENT_FORMAT };

@@ -1,21 +1,13 @@
 // Reading verdicts: lists with filters, a sort and keyset cursor pagination (newest first by default), one by id, and the
-// re-run of the engine on a stored input. Every query is scoped by the caller's organisation.
-//
-// This module is also the entry of the recompute worker thread (see "Recompute off the request
-// thread" below): loaded in a worker started with RECOMPUTE_WORKER_DATA, it only re-judges records.
-import { readFileSync } from 'node:fs';
-import { createRequire } from 'node:module';
-import { dirname, join } from 'node:path';
-import { pathToFileURL } from 'node:url';
-import { isMainThread, parentPort, Worker, workerData } from 'node:worker_threads';
+// re-run of the engine on a stored input (a big record's on the aside thread, aside-tasks.ts). Every query is scoped by
+// the caller's organisation.
 import { QueryTypes, type Sequelize } from 'sequelize';
-import { ENGINE_VERSION, evaluateLot } from '../../shared/engine';
-import { InvalidInput, NotFound, Unavailable } from '../core/errors';
-import { canonicalJson } from './canonical';
+import { runAside } from '../core/aside-thread';
+import { InvalidInput, NotFound } from '../core/errors';
 import { decodeCursor, encodeCursor } from '../core/cursor';
 import type { Principal } from '../core/principal';
-import { VIEW_COLUMNS, verdictView, type VerdictRecord, type VerdictRow, type VerdictView } from './verdict-records';
-import type { components } from '../../shared/api/schema';
+import { recomputeRecord, type Recomputation } from './aside-tasks';
+import { VIEW_COLUMNS, verdictView, type VerdictRow, type VerdictView } from './verdict-records';
 
 export interface VerdictFilter {
   productId?: string;
@@ -143,54 +135,11 @@ export async function getVerdict(sequelize: Sequelize, principal: Principal, id:
   return verdictView(row);
 }
 
-/** Where two JSON values differ (JSON pointers, at most `max`). */
-function differences(a: unknown, b: unknown, path = '', out: string[] = [], max = 20): string[] {
-  if (out.length >= max) return out;
-  if (a === b) return out;
-  if (typeof a !== 'object' || typeof b !== 'object' || a === null || b === null || Array.isArray(a) !== Array.isArray(b)) {
-    out.push(path || '/');
-    return out;
-  }
-  const keys = new Set([...Object.keys(a), ...Object.keys(b)]);
-  for (const k of keys) differences((a as Record<string, unknown>)[k], (b as Record<string, unknown>)[k], `${path}/${k}`, out, max);
-  return out;
-}
-
-type Recomputation = components['schemas']['Recomputation'];
-
-/** Re-judges a stored record (its canonical JSON text) and compares the result with the sealed one. */
-function recomputation(id: string, recordText: string): Recomputation {
-  const record = JSON.parse(recordText) as VerdictRecord;
-  const again = evaluateLot(record.input);
-  const recorded = record.result;
-  if (!again.ok) {
-    return {
-      verdictId: id,
-      matches: false,
-      recordedEngineVersion: record.engine.version,
-      currentEngineVersion: ENGINE_VERSION,
-      recordedDecision: recorded.decision,
-      recomputedDecision: null,
-      differences: [`engine refused the stored input: ${again.error.message} (${again.error.pointer})`],
-    };
-  }
-  const same = canonicalJson(again.verdict) === canonicalJson(recorded);
-  return {
-    verdictId: id,
-    matches: same,
-    recordedEngineVersion: record.engine.version,
-    currentEngineVersion: ENGINE_VERSION,
-    recordedDecision: recorded.decision,
-    recomputedDecision: again.verdict.decision,
-    differences: same ? [] : differences(recorded, again.verdict),
-  };
-}
-
 /**
- * Records of more than this many bytes are re-judged on the worker thread. Parsing and judging a
+ * Records of more than this many bytes are re-judged on the aside thread. Parsing and judging a
  * record costs about 0.5 ms per thousand measurements on the main thread (a 1 000 000-measurement
  * lot held the event loop for 350–590 ms); up to this (some 30 000 measurements) it stays well
- * under the 100 ms /healthz budget, and posting the text to the worker would cost more than it saves.
+ * under the 100 ms /healthz budget, and posting the text there would cost more than it saves.
  */
 export const RECOMPUTE_ASIDE_MIN_BYTES = 256 * 1024;
 /**
@@ -208,7 +157,7 @@ export async function recomputeVerdict(sequelize: Sequelize, principal: Principa
     { bind: [org, id, RECOMPUTE_ASIDE_MIN_BYTES], type: QueryTypes.SELECT },
   );
   if (!row) throw new NotFound(`no verdict ${id} in your organisation`);
-  if (row.record !== null) return recomputation(id, row.record);
+  if (row.record !== null) return recomputeRecord.run({ verdictId: id, parts: [row.record] }).value;
   // Verdict rows never change (a trigger refuses UPDATE), so the slices are of one record.
   const parts: string[] = [];
   for (let from = 1; ; from += RECORD_SLICE_CHARS) {
@@ -220,134 +169,5 @@ export async function recomputeVerdict(sequelize: Sequelize, principal: Principa
     if (part) parts.push(part);
     if (part.length < RECORD_SLICE_CHARS) break;
   }
-  return (await recomputeAside(id, parts)) ?? recomputation(id, parts.join(''));
-}
-
-// ---- Recompute off the request thread -------------------------------------------------------
-// One worker thread per process, started by the first big recompute and not keeping the process
-// alive; it runs this same module (loaded through tsx's API, as the server itself is TypeScript) and answers one message
-// type. Jobs queue on it one at a time. When it cannot start, the main thread re-judges as before
-// (the answer never depends on the worker); when it dies with a job in hand, that request is a 503.
-// Own code: worker pools on npm start a thread per task or need a separate compiled file.
-
-const RECOMPUTE_WORKER_DATA = { lotproofRole: 'recompute' } as const;
-/** How long the first big recompute waits for the worker to load before judging on the main thread. */
-const WORKER_LOAD_TIMEOUT_MS = 30_000;
-
-interface RecomputeRequest {
-  job: number;
-  verdictId: string;
-  /** The record's text, in slices. */
-  parts: string[];
-}
-type RecomputeReply = { ready: true } | { job: number; result: Recomputation } | { job: number; error: string };
-
-/** The worker (once it has said it is ready), or the promise of it while it loads. */
-let recomputeWorker: Promise<Worker | null> | null = null;
-/** When the worker last failed to load: the main thread re-judges for a minute before trying again. */
-let failedAt = -Infinity;
-const RETRY_AFTER_MS = 60_000;
-/** Which load is the current one (a worker gone clears the current promise only if it is its own). */
-let generation = 0;
-let nextJob = 1;
-const pending = new Map<number, { resolve: (r: Recomputation) => void; reject: (e: Error) => void }>();
-
-/** The ES module entry of tsx's API, as its package.json declares it ("./esm/api" → "import"). */
-function tsxApiUrl(): string {
-  const manifestPath = createRequire(import.meta.url).resolve('tsx/package.json');
-  const manifest = JSON.parse(readFileSync(manifestPath, 'utf8')) as { exports: Record<string, { import: { default: string } }> };
-  return pathToFileURL(join(dirname(manifestPath), manifest.exports['./esm/api']!.import.default)).href;
-}
-
-function loadRecomputeWorker(): Promise<Worker | null> {
-  const mine = ++generation;
-  return new Promise((resolve) => {
-    let w: Worker;
-    try {
-      // The worker is TypeScript like the rest of the server, so it is loaded through tsx's API.
-      const entry = import.meta.url;
-      const code = `import(${JSON.stringify(tsxApiUrl())}).then((tsx) => tsx.tsImport(${JSON.stringify(entry)}, ${JSON.stringify(entry)}));`;
-      w = new Worker(code, { eval: true, workerData: RECOMPUTE_WORKER_DATA });
-    } catch {
-      failedAt = performance.now();
-      resolve(null);
-      return;
-    }
-    w.unref();
-    let ready = false;
-    const timer = setTimeout(() => void w.terminate(), WORKER_LOAD_TIMEOUT_MS);
-    timer.unref();
-    w.on('message', (m: RecomputeReply) => {
-      if ('ready' in m) {
-        ready = true;
-        clearTimeout(timer);
-        resolve(w);
-        return;
-      }
-      const waiter = pending.get(m.job);
-      if (!waiter) return;
-      pending.delete(m.job);
-      if ('result' in m) waiter.resolve(m.result);
-      else waiter.reject(new Error(`recompute failed on the worker thread: ${m.error}`));
-    });
-    let gone = false;
-    const onGone = () => {
-      if (gone) return;
-      gone = true;
-      clearTimeout(timer);
-      if (!ready) failedAt = performance.now();
-      resolve(null); // no effect once it was ready
-      // Only this worker is ever sent jobs while it lives, so every job waiting is one of its own.
-      if (generation === mine) recomputeWorker = null;
-      for (const waiter of pending.values()) waiter.reject(new Unavailable('the recompute was interrupted; nothing was changed. Try again.'));
-      pending.clear();
-    };
-    w.on('error', onGone);
-    w.on('exit', onGone);
-  });
-}
-
-/** Starts the recompute worker ahead of the first big recompute (server start); harmless to call again. */
-export function startRecomputeWorker(): void {
-  if (performance.now() - failedAt < RETRY_AFTER_MS) return;
-  recomputeWorker ??= loadRecomputeWorker();
-}
-
-/** The recomputation judged on the worker thread, or null when the worker is not available. */
-async function recomputeAside(verdictId: string, parts: string[]): Promise<Recomputation | null> {
-  startRecomputeWorker();
-  const w = recomputeWorker ? await recomputeWorker : null;
-  if (!w) return null;
-  const job = nextJob++;
-  return new Promise<Recomputation>((resolve, reject) => {
-    pending.set(job, { resolve, reject });
-    try {
-      w.postMessage({ job, verdictId, parts } satisfies RecomputeRequest);
-    } catch (err) {
-      pending.delete(job);
-      reject(err as Error);
-    }
-  });
-}
-
-/** Stops the recompute worker (tests; a server's exit does not wait for it). */
-export async function stopRecomputeWorker(): Promise<void> {
-  const w = recomputeWorker ? await recomputeWorker : null;
-  recomputeWorker = null;
-  if (w) await w.terminate();
-}
-
-// In the worker thread: re-judge each record sent, one at a time.
-if (!isMainThread && (workerData as { lotproofRole?: string } | null)?.lotproofRole === RECOMPUTE_WORKER_DATA.lotproofRole && parentPort) {
-  const port = parentPort;
-  port.on('message', ({ job, verdictId, parts }: RecomputeRequest) => {
-    let reply: RecomputeReply;
-    try {
-      reply = { job, result: recomputation(verdictId, parts.join('')) };
-    } catch (err) {
-      reply = { job, error: err instanceof Error ? err.message : String(err) };
-    }
-    port.postMessage(reply);
-  });
-  port.postMessage({ ready: true } satisfies RecomputeReply);
+  return runAside(recomputeRecord, { verdictId: id, parts });
 }

@@ -4,6 +4,8 @@ import { ENGINE_VERSION, type LotInput, type Verdict as EngineVerdict } from '..
 import type { IdempotencyClaim } from '../core/idempotency';
 import type { PendingVerdict } from './ledger';
 import type { LotProduct } from './lot-product';
+import type { PlausibilityRecord } from '../../shared/plausibility';
+import type { Submitter } from './lot-submitter';
 import type { FirstSample } from './second-sample';
 import { canonicalContentParts, RECORD_FORMAT, type RecordContent, type VerdictRecord } from './verdict-records';
 
@@ -18,7 +20,12 @@ export interface JudgedLot {
   packedAt: string | null;
   clientReference: string | null;
   source: VerdictRecord['lot']['source'];
-  first: FirstSample | null;
+  /** The first sample this lot completes (only what the record names of it). */
+  first: Pick<FirstSample, 'id' | 'seal'> | null;
+  /** The lot's latest judgement this one re-tests, and why. */
+  retest: { id: string; seal: string; reason: string } | null;
+  submittedBy: Submitter | null;
+  plausibility: PlausibilityRecord | null;
   result: EngineVerdict;
 }
 
@@ -33,6 +40,9 @@ export function assembleVerdict(j: JudgedLot, claim: IdempotencyClaim | null): P
     product: { id: product.id, sku: product.sku, name: product.name },
     lot: { lotCode: j.lotCode, line: j.line, packedAt: j.packedAt, clientReference: j.clientReference, source: j.source },
     firstSample: first ? { verdictId: first.id, seal: first.seal } : null,
+    retestOf: j.retest ? { verdictId: j.retest.id, seal: j.retest.seal, reason: j.retest.reason } : null,
+    submittedBy: j.submittedBy,
+    plausibility: j.plausibility,
     input,
     engine: { version: ENGINE_VERSION },
     rulebook: { id: result.rulebook.id, version: result.rulebook.version },
@@ -59,6 +69,11 @@ export function assembleVerdict(j: JudgedLot, claim: IdempotencyClaim | null): P
       client_reference: j.clientReference,
       source_format: j.source.format,
       first_sample_verdict_id: first ? first.id : null,
+      retest_of_verdict_id: j.retest ? j.retest.id : null,
+      retest_reason: j.retest ? j.retest.reason : null,
+      submitted_by: j.submittedBy,
+      retest_of_seal: j.retest ? j.retest.seal : null,
+      retested_by: null,
       decision: result.decision,
       result: result as never,
       engine_version: ENGINE_VERSION,

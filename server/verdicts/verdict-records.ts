@@ -4,6 +4,8 @@
 import type { LotInput, Verdict as EngineVerdict } from '../../shared/engine';
 import type { components } from '../../shared/api/schema';
 import { canonicalJson, canonicalJsonBytes, joinPieces } from './canonical';
+import type { PlausibilityRecord } from '../../shared/plausibility';
+import type { Submitter } from './lot-submitter';
 
 export type VerdictView = components['schemas']['Verdict'];
 export type SealedDocument = components['schemas']['SealedDocument'];
@@ -25,9 +27,28 @@ export interface VerdictRecord {
     line: string | null;
     packedAt: string | null;
     clientReference: string | null;
-    source: { format: 'json' } | { format: 'csv'; sha256: string; column: string; tareColumn: string | null };
+    source:
+      | { format: 'json' }
+      | {
+          format: 'csv';
+          sha256: string;
+          column: string;
+          tareColumn: string | null;
+          /** What the CSV reader (shared/csv/lot-csv.ts) found or was told, and the blank rows it skipped (issue 16; absent before). */
+          delimiter?: 'comma' | 'semicolon' | 'tab' | null;
+          decimal?: 'point' | 'comma' | null;
+          rowsRead?: number;
+          blankLines?: { count: number; lines: number[] };
+        };
   };
   firstSample: { verdictId: string; seal: string } | null;
+  /** The judgement of the same lot this one re-tests (the lot's latest before it), and why. Absent
+   *  from records sealed before issue 16, like `submittedBy` and `plausibility`. */
+  retestOf?: { verdictId: string; seal: string; reason: string } | null;
+  /** Who submitted the lot: a console user or an API key (never a secret). */
+  submittedBy?: Submitter | null;
+  /** The plausibility check of this sample's packs, and whether the submitter confirmed packs outside the band. */
+  plausibility?: PlausibilityRecord | null;
   /** Exactly what the engine was given: the product spec as judged and the lot data as submitted. */
   input: LotInput;
   engine: { version: string };
@@ -94,6 +115,12 @@ export interface VerdictRow {
   client_reference: string | null;
   source_format: 'json' | 'csv';
   first_sample_verdict_id: string | null;
+  retest_of_verdict_id: string | null;
+  retest_reason: string | null;
+  submitted_by: Submitter | null;
+  /** Read, not stored: the seal of the verdict re-tested, and the verdict that re-tests this one. */
+  retest_of_seal?: string | null;
+  retested_by?: { verdictId: string; decision: VerdictView['decision']; reason: string } | null;
   decision: VerdictView['decision'];
   result: VerdictView['result'];
   engine_version: string;
@@ -102,9 +129,13 @@ export interface VerdictRow {
   recorded_at: Date | string;
 }
 
+/** The columns a view needs; read FROM verdicts unaliased (the re-test columns refer to it by name). */
 export const VIEW_COLUMNS = `id, organisation_id, sequence, seal, previous_seal, signature, kid, product_id, product_sku, product_name,
   product_spec, lot_code, line, packed_at, lot_size, testing, measurement_unit, measurement_count, client_reference, source_format,
-  first_sample_verdict_id, decision, result, engine_version, rulebook_id, rulebook_version, recorded_at`;
+  first_sample_verdict_id, retest_of_verdict_id, retest_reason, submitted_by, decision, result, engine_version, rulebook_id, rulebook_version, recorded_at,
+  (SELECT o.seal FROM verdicts o WHERE o.id = verdicts.retest_of_verdict_id) AS retest_of_seal,
+  (SELECT json_build_object('verdictId', r.id, 'decision', r.decision, 'reason', r.retest_reason) FROM verdicts r
+     WHERE r.retest_of_verdict_id = verdicts.id AND r.organisation_id = verdicts.organisation_id) AS retested_by`;
 
 function iso(d: Date | string | null): string | null {
   if (d === null) return null;
@@ -128,6 +159,9 @@ export function verdictView(row: VerdictRow): VerdictView {
       sourceFormat: row.source_format,
     },
     firstSampleVerdictId: row.first_sample_verdict_id,
+    retestOf: row.retest_of_verdict_id ? { verdictId: row.retest_of_verdict_id, seal: row.retest_of_seal ?? '', reason: row.retest_reason ?? '' } : null,
+    retestedBy: row.retested_by ?? null,
+    submittedBy: row.submitted_by ?? null,
     result: row.result,
     recordedAt: iso(row.recorded_at)!,
     seal: {

@@ -14,7 +14,7 @@ const inTransaction = <T>(work: (t: Transaction) => Promise<T>): Promise<T> => W
 import { decodeCursor, encodeCursor } from '../core/cursor';
 import { ledgerEvents } from '../verdicts/ledger';
 import { TEST_EVENT } from '../verdicts/notifications';
-import type { Principal } from '../core/principal';
+import { holdsAnyRole, type Principal } from '../core/principal';
 import { isSealed, type SecretBox } from '../core/secret-box';
 import { forEachStoredReply } from '../core/idempotency';
 // The organisation's audit trail is the identity area's; webhook changes are written to it too.
@@ -107,7 +107,7 @@ const VERDICT_READING_ROLES: readonly string[] = ['admin', 'quality', 'auditor']
 function mustReadVerdicts(principal: Principal, what: string): void {
   const ok = principal.kind === 'api-key'
     ? principal.scopes.some((s) => VERDICT_READING_SCOPES.includes(s))
-    : principal.role !== undefined && VERDICT_READING_ROLES.includes(principal.role);
+    : holdsAnyRole(principal, VERDICT_READING_ROLES);
   if (!ok) {
     throw new NotAllowed(
       `${what} sends verdict data to the endpoint, so it needs an API key that may also read verdicts (verdicts:read or audit:read) besides keys:manage.`,
@@ -241,6 +241,9 @@ export async function updateWebhook(principal: Principal, id: string, patch: Web
   if (patch.url !== undefined || patch.events !== undefined || patch.enabled === true) mustReadVerdicts(principal, 'Changing where or which events a webhook endpoint sends, or switching it on,');
   if (patch.url) checkUrl(patch.url, allowPrivate);
   const changed = (['url', 'events', 'description', 'enabled'] as const).filter((k) => patch[k] !== undefined);
+  // What each changed field was and became; a URL shown as the audit trail keeps it, without its query.
+  const raw = (x: WebhookEndpoint) => ({ url: x.url, events: [...x.events], description: x.description, enabled: x.enabled });
+  const before = raw(e);
   await inTransaction(async (transaction) => {
     await e.update(
       {
@@ -252,6 +255,14 @@ export async function updateWebhook(principal: Principal, id: string, patch: Web
       },
       { transaction },
     );
+    const after = raw(e);
+    const changes = changed
+      .filter((k) => JSON.stringify(before[k]) !== JSON.stringify(after[k]))
+      .map((k) => {
+        if (k !== 'url') return { field: `/${k}`, before: before[k], after: after[k] };
+        const [was, is] = [auditedUrl(before.url), auditedUrl(after.url)];
+        return { field: '/url', before: was, after: is, ...(was === is ? { detail: 'only the query changed (not kept: it may carry a token)' } : {}) };
+      });
     await audit(
       principal,
       from,
@@ -259,6 +270,7 @@ export async function updateWebhook(principal: Principal, id: string, patch: Web
       e.id,
       {
         changed,
+        changes,
         ...(patch.url ? { url: auditedUrl(e.url) } : {}),
         ...(patch.events ? { events: e.events } : {}),
         ...(patch.enabled !== undefined ? { enabled: e.enabled } : {}),

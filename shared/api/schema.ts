@@ -114,9 +114,11 @@ export interface paths {
         options?: never;
         head?: never;
         /**
-         * Change a user's role
-         * @description The last admin of an organisation cannot be given another role (409). An admin who gets
-         *     another role loses their pending invitations (revoked, each in the audit trail).
+         * Set a user's roles
+         * @description Gives the user these roles (`roles`; the older `role` names one, never both). The last
+         *     admin of an organisation cannot lose the admin role, whatever roles they keep (409). A user
+         *     who loses the admin role loses their pending invitations (revoked, each in the audit trail).
+         *     The change is in the audit trail with the roles before and after.
          */
         patch: operations["changeUserRole"];
         trace?: never;
@@ -132,7 +134,7 @@ export interface paths {
         get: operations["listInvitations"];
         put?: never;
         /**
-         * Invite someone by e-mail to join with a role
+         * Invite someone by e-mail to join with one or more roles
          * @description Sends an e-mail with a one-time link to `/accept-invite?token=…` on the console. A newer
          *     invitation to the same address replaces a pending one. 409 when the address has an account
          *     in this organisation; an account elsewhere is not disclosed (accepting is then refused, as
@@ -320,6 +322,212 @@ export interface paths {
         patch?: never;
         trace?: never;
     };
+    "/v1/ledger/checkpoints": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** Your organisation's signed checkpoints, newest first */
+        get: operations["listCheckpoints"];
+        put?: never;
+        /**
+         * Issue a checkpoint of the ledger as it stands now
+         * @description Brings the tree up to the chain's head and signs a new checkpoint (201). When nothing was
+         *     appended since the latest checkpoint, that one is returned instead (200). An empty ledger has
+         *     no checkpoint (404). Checkpoints are also issued on a schedule
+         *     (`LOTPROOF_CHECKPOINT_INTERVAL_SECONDS`).
+         */
+        post: operations["issueCheckpoint"];
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/ledger/checkpoints/latest": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** The latest checkpoint */
+        get: operations["getLatestCheckpoint"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/ledger/checkpoints/{treeSize}": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** The checkpoint of one tree size */
+        get: operations["getCheckpoint"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/ledger/proofs/inclusion": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /**
+         * Proof that a verdict's seal is in a checkpoint's tree (RFC 9162 §2.1.3)
+         * @description Name the verdict by `seal` or by `verdictId`. Without `treeSize` the proof is against the
+         *     latest checkpoint (a new one is issued first when the latest does not cover the verdict yet).
+         *     The leaf is SHA-256(0x00 ‖ the seal's 32 bytes); verify with RFC 9162 §2.1.3.2.
+         */
+        get: operations["getInclusionProof"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/ledger/proofs/consistency": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** Proof that a later checkpoint's tree extends an earlier one's (RFC 9162 §2.1.4) */
+        get: operations["getConsistencyProof"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/ledger/verify": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /**
+         * Check a range of your chain against the latest checkpoint
+         * @description Checks the records at positions `from`..`to` (default: the newest 1 000 up to the latest
+         *     checkpoint, issued first when the chain has grown since): each hashes to its seal, is signed
+         *     by a published key, names its position and organisation, and links to the seal before it.
+         *     Their leaf hashes, recomputed from the seals and combined with the stored tree for the rest,
+         *     must give the checkpoint's root; the checkpoint's signature and its consistency with the one
+         *     before it are checked too. A walk of the whole chain is a background job (`POST /v1/ledger/walks`).
+         */
+        get: operations["verifyLedger"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/ledger/walks": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        get?: never;
+        put?: never;
+        /**
+         * Start a walk of your whole chain in the background
+         * @description Checks every record from position 1 to the latest checkpoint (issued first when the chain has
+         *     grown), rebuilds the tree from the seals and compares it with every checkpoint on the way.
+         *     Follow its progress with `GET /v1/ledger/walks/{walkId}`. A walk whose server stopped is
+         *     shown as interrupted; start another.
+         */
+        post: operations["startLedgerWalk"];
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/ledger/walks/{walkId}": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** Progress and result of a walk */
+        get: operations["getLedgerWalk"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/ledger/witnesses": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /**
+         * Who receives your organisation's checkpoints
+         * @description Each witness (an auditor, a customer, an inspector) receives every new checkpoint by e-mail,
+         *     through a webhook endpoint subscribed to `ledger.checkpoint`, or both, so that copies of
+         *     past checkpoints live outside your systems.
+         */
+        get: operations["listWitnesses"];
+        put?: never;
+        /**
+         * Name someone who receives every new checkpoint
+         * @description Give an e-mail address, a webhook endpoint of your organisation subscribed to
+         *     `ledger.checkpoint` (`webhookId`), or both. The witness receives checkpoints issued from now on.
+         */
+        post: operations["addWitness"];
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/v1/ledger/witnesses/{witnessId}": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        get?: never;
+        put?: never;
+        post?: never;
+        /** Stop sending checkpoints to a witness */
+        delete: operations["removeWitness"];
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
     "/v1/usage": {
         parameters: {
             query?: never;
@@ -426,9 +634,30 @@ export interface paths {
          * Submit a lot's measurements; returns the sealed verdict
          * @description Send JSON, or `text/csv` with a header row: name the measurement column with `column`
          *     and give the lot's fields as query parameters. Measurements are in production order.
+         *     CSV (RFC 4180 quoting, LF or CRLF, a UTF-8 BOM skipped): the column separator and the
+         *     decimal separator are found in the file or chosen with `delimiter` and `decimal`; a file
+         *     they leave ambiguous is a 400 whose `choose` says what to choose, and every refusal names
+         *     its CSV line (`line`). A blank row (empty, white space, or empty fields only) is skipped
+         *     and reported by line in the record's `lot.source.blankLines`; a row whose measurement
+         *     (or tare) is empty is refused. The record's `lot.source` says what was read: delimiter,
+         *     decimal separator, rows read.
          *     Up to 1 000 000 measurements per lot (413 above). For the second sample of a
          *     `second-sample-required` verdict, set `firstSampleVerdictId`: the new verdict judges both
          *     samples together and links to the first.
+         *
+         *     **One lot, one judgement.** A lot is a lot code of a product; lot codes compare exactly as
+         *     given (case and spaces count: `L-7` and `l-7` are two lots). A lot judged before is refused
+         *     with a 409 `lot-already-judged` naming its latest verdict (`verdict: { id, decision, href }`),
+         *     unless this is its second sample (`firstSampleVerdictId`) or a re-test with a reason
+         *     (`retest: { of, reason }`, for CSV `retestOf` and `retestReason`), which must name the lot's
+         *     latest judgement (else 409 `not-latest-judgement` naming it) and is sealed as a re-test of it.
+         *     Of concurrent submissions of one new lot, one is judged and the others get the 409.
+         *
+         *     **Plausibility.** A pack whose net quantity, in the product's unit, lies outside the product's
+         *     plausible band (`plausibility` on the product; by default 0.5 to 2 × the nominal quantity,
+         *     common practice) is refused with a 422 `implausible-measurement` naming each such pack
+         *     (`/body/measurements/17`, or the CSV line), unless `confirmImplausible` is true; the check and
+         *     the confirmation are sealed in the record. A refused lot stores nothing and is not counted.
          *
          *     An `Idempotency-Key` makes a retry safe: the same key with the same body (the same
          *     bytes: send a retry exactly as the first attempt) returns the first response byte for
@@ -555,23 +784,6 @@ export interface paths {
         patch?: never;
         trace?: never;
     };
-    "/v1/ledger/verify": {
-        parameters: {
-            query?: never;
-            header?: never;
-            path?: never;
-            cookie?: never;
-        };
-        /** Walk your organisation's chain and report the first break, if any */
-        get: operations["verifyLedger"];
-        put?: never;
-        post?: never;
-        delete?: never;
-        options?: never;
-        head?: never;
-        patch?: never;
-        trace?: never;
-    };
     "/v1/exports/verdicts": {
         parameters: {
             query?: never;
@@ -581,7 +793,12 @@ export interface paths {
         };
         /**
          * Export verdicts as CSV (one summary row each) or NDJSON (one sealed document a line)
-         * @description Oldest first, so an NDJSON export is a stretch of the chain the offline verifier can walk.
+         * @description Oldest first. An NDJSON export (`lotproof.export/2`, clients/verifier/FORMAT.md) starts with a
+         *     header line naming a signed checkpoint (issued first when the chain has grown since the latest)
+         *     and holds only positions up to its tree size; every following line is a sealed document with
+         *     its `inclusion` proof in that checkpoint. Without a filter it is `complete`: exactly positions
+         *     `from`..`to`, from 1, or from right after the checkpoint of tree size `fromSize` the reader
+         *     pinned. With a filter it is `complete: false` and names the filter; each member is still proven.
          */
         get: operations["exportVerdicts"];
         put?: never;
@@ -708,7 +925,10 @@ export interface components {
             /** @enum {string} */
             kind: "api-key" | "session";
             scopes: components["schemas"]["Scope"][];
+            /** @description A session: the first of `roles`, for older clients */
             role?: components["schemas"]["Role"];
+            /** @description A session's roles (one or more) */
+            roles?: components["schemas"]["Role"][];
             /** Format: uuid */
             keyId?: string;
             /** Format: uuid */
@@ -729,7 +949,9 @@ export interface components {
             id: string;
             email: string;
             name: string;
+            /** @description The first of `roles`, for older clients */
             role: components["schemas"]["Role"];
+            roles: components["schemas"]["RoleList"];
             /** Format: date-time */
             createdAt: string;
         };
@@ -748,7 +970,9 @@ export interface components {
             /** Format: uuid */
             id: string;
             email: string;
+            /** @description The first of `roles`, for older clients */
             role: components["schemas"]["Role"];
+            roles: components["schemas"]["RoleList"];
             /** @enum {string} */
             status: "pending" | "accepted" | "revoked" | "expired";
             /** Format: date-time */
@@ -758,6 +982,8 @@ export interface components {
             /** Format: date-time */
             acceptedAt: string | null;
         };
+        /** @description One or more roles, each once; answered in the order admin, quality, auditor. */
+        RoleList: components["schemas"]["Role"][];
         ApiKey: {
             /** Format: uuid */
             id: string;
@@ -780,7 +1006,7 @@ export interface components {
             status: "active" | "revoked" | "expired";
         };
         /** @enum {string} */
-        AuditAction: "key.created" | "key.revoked" | "user.invited" | "invitation.revoked" | "invitation.accepted" | "user.role-changed" | "user.removed" | "user.signed-in" | "user.sign-in-failed" | "user.password-reset-requested" | "user.password-reset" | "organisation.created" | "webhook.created" | "webhook.updated" | "webhook.deleted" | "webhook.tested";
+        AuditAction: "key.created" | "key.revoked" | "user.invited" | "invitation.revoked" | "invitation.accepted" | "user.role-changed" | "user.removed" | "user.signed-in" | "user.sign-in-failed" | "user.password-reset-requested" | "user.password-reset" | "organisation.created" | "webhook.created" | "webhook.updated" | "webhook.deleted" | "webhook.tested" | "witness.added" | "witness.removed" | "product.created" | "product.updated" | "product.archived";
         AuditEvent: {
             /** Format: uuid */
             id: string;
@@ -802,6 +1028,11 @@ export interface components {
             } | null;
             /** @description Client address as seen by the server */
             ip: string | null;
+            /**
+             * @description What the event concerns. A change carries `changes`: for each field it changed, its
+             *     JSON pointer (`field`), `before` and `after` (null where there was or is none); for
+             *     alert recipients also the addresses `added` and `removed`.
+             */
             details: {
                 [key: string]: unknown;
             };
@@ -816,6 +1047,133 @@ export interface components {
             subject: string;
             text: string;
             html: string | null;
+        };
+        TreeSize: number;
+        /** @description SHA-256, 64 lower-case hex digits */
+        Hash: string;
+        /** @description A signed statement of the tree's size and root at a time (clients/verifier/FORMAT.md: Ed25519 over the RFC 8785 canonical JSON of the object without signature) */
+        Checkpoint: {
+            /** @constant */
+            format: "lotproof.checkpoint/1";
+            /** Format: uuid */
+            organisationId: string;
+            treeSize: number;
+            rootHash: components["schemas"]["Hash"];
+            /** Format: date-time */
+            issuedAt: string;
+            kid: string;
+            /** @description Ed25519 signature, base64url without padding */
+            signature: string;
+        };
+        InclusionProof: {
+            /** @description The verdict's position − 1 */
+            leafIndex: number;
+            treeSize: number;
+            /** @description PATH(leafIndex, D[treeSize]), RFC 9162 §2.1.3.1 */
+            hashes: components["schemas"]["Hash"][];
+        };
+        ConsistencyProof: {
+            fromSize: number;
+            toSize: number;
+            /** @description PROOF(fromSize, D[toSize]), RFC 9162 §2.1.4.1 */
+            hashes: components["schemas"]["Hash"][];
+        };
+        InclusionProofReply: {
+            checkpoint: components["schemas"]["Checkpoint"];
+            verdict: {
+                /** Format: uuid */
+                id: string;
+                sequence: number;
+                seal: components["schemas"]["Hash"];
+            };
+            proof: components["schemas"]["InclusionProof"];
+        };
+        ConsistencyProofReply: {
+            from: components["schemas"]["Checkpoint"];
+            to: components["schemas"]["Checkpoint"];
+            proof: components["schemas"]["ConsistencyProof"];
+        };
+        /** @description The first record that fails a check */
+        LedgerBreak: {
+            sequence: number;
+            verdictId: string;
+            reason: string;
+        } | null;
+        LedgerCheck: {
+            /** @description Every check passed */
+            intact: boolean;
+            verdictsChecked: number;
+            /** @description First position checked */
+            from: number | null;
+            /** @description Last position checked */
+            to: number | null;
+            /** @description The last position checked intact */
+            head: {
+                sequence: number;
+                seal: string;
+            } | null;
+            firstBreak: components["schemas"]["LedgerBreak"];
+            /** @description The checkpoint checked against (null for an empty ledger) */
+            checkpoint: components["schemas"]["Checkpoint"] | null;
+            /** @description The checkpoint's signature verifies with its published key */
+            signatureValid: boolean | null;
+            /** @description The range's seals with the stored tree give the checkpoint's root, and the stored nodes inside the range match the seals */
+            rootMatches: boolean | null;
+            /** @description Consistent with the checkpoint before it (null: it is the first) */
+            consistentWithPrevious: boolean | null;
+            previousTreeSize: number | null;
+            /** @description What failed, in words */
+            findings: string[];
+        };
+        LedgerWalk: {
+            /** Format: uuid */
+            id: string;
+            /** @enum {string} */
+            status: "running" | "finished" | "interrupted";
+            /** @description The walk checks positions 1..treeSize (the latest checkpoint when it started) */
+            treeSize: number;
+            checked: number;
+            total: number;
+            /** @description Set when the walk has finished */
+            intact: boolean | null;
+            firstBreak: components["schemas"]["LedgerBreak"];
+            findings: string[];
+            /** Format: date-time */
+            startedAt: string;
+            /** Format: date-time */
+            finishedAt: string | null;
+        };
+        /** @description Someone outside your organisation's systems who receives every new checkpoint */
+        Witness: {
+            /** Format: uuid */
+            id: string;
+            name: string;
+            /** @description Free text: external auditor, customer, inspector… */
+            role: string;
+            /** @description Receives each checkpoint by e-mail */
+            email: string | null;
+            /** @description The endpoint that receives each checkpoint as a `ledger.checkpoint` event */
+            webhook: {
+                /** Format: uuid */
+                id: string;
+                /** @description null when the endpoint was removed */
+                url: string | null;
+                /** @description The endpoint exists, is enabled and is subscribed to ledger.checkpoint */
+                receivesCheckpoints: boolean;
+            } | null;
+            /** Format: date-time */
+            createdAt: string;
+        };
+        WitnessInput: {
+            name: string;
+            role: string;
+            /** Format: email */
+            email?: string;
+            /**
+             * Format: uuid
+             * @description A webhook endpoint of your organisation subscribed to ledger.checkpoint
+             */
+            webhookId?: string;
         };
         UsageCounts: {
             requests: number;
@@ -865,6 +1223,7 @@ export interface components {
             rulebook: components["schemas"]["RulebookChoice"];
             /** @description E-mailed when a lot of this product is nonconforming */
             alertRecipients?: string[];
+            plausibility?: components["schemas"]["PlausibilityInput"];
         };
         ProductPatch: {
             sku?: string;
@@ -878,6 +1237,19 @@ export interface components {
             density?: number | null;
             rulebook?: components["schemas"]["RulebookChoice"];
             alertRecipients?: string[];
+            plausibility?: components["schemas"]["PlausibilityInput"];
+        };
+        /**
+         * @description The plausible band of a pack's net quantity, as fractions of the nominal quantity, in the
+         *     product's unit; a lot with a pack outside it is refused unless confirmed (submitLot). null or
+         *     absent: the default band, 0.5 to 2 × Qn (common practice, not a legal limit).
+         */
+        PlausibilityInput: null | components["schemas"]["PlausibilityBand"];
+        PlausibilityBand: {
+            /** @description Lowest plausible net quantity as a fraction of Qn */
+            minFraction: number;
+            /** @description Highest plausible net quantity as a fraction of Qn (above minFraction) */
+            maxFraction: number;
         };
         Product: {
             /** Format: uuid */
@@ -893,6 +1265,7 @@ export interface components {
             density: number | null;
             rulebook: components["schemas"]["RulebookChoice"];
             alertRecipients: string[];
+            plausibility: components["schemas"]["PlausibilityBand"];
             /** Format: date-time */
             createdAt: string;
             /** Format: date-time */
@@ -970,6 +1343,33 @@ export interface components {
              * @description The first sample's verdict, when this is a second sample
              */
             firstSampleVerdictId?: string;
+            /** @description Judge a lot judged before again, as a re-test of its latest verdict (not with firstSampleVerdictId) */
+            retest?: {
+                /**
+                 * Format: uuid
+                 * @description The lot's latest verdict
+                 */
+                of: string;
+                /** @description Why the lot is judged again; sealed in the record */
+                reason: string;
+            };
+            /** @description Seal the lot although packs lie outside the product's plausible band (the confirmation is sealed in the record) */
+            confirmImplausible?: boolean;
+        };
+        /** @description Who submitted the lot (a console user, or an API key by name and visible prefix; never a secret) */
+        Submitter: {
+            /** @constant */
+            kind: "user";
+            /** Format: uuid */
+            userId: string;
+            email: string;
+        } | {
+            /** @constant */
+            kind: "api-key";
+            /** Format: uuid */
+            keyId: string;
+            name: string;
+            prefix: string;
         };
         /** @description The engine's result with every statistic behind it (see the engine's types) */
         EngineVerdict: {
@@ -1062,6 +1462,22 @@ export interface components {
             };
             /** Format: uuid */
             firstSampleVerdictId: string | null;
+            /** @description The verdict of the same lot this one re-tests (the lot's latest before it), its seal and the reason */
+            retestOf: null | {
+                /** Format: uuid */
+                verdictId: string;
+                seal: string;
+                reason: string;
+            };
+            /** @description The verdict that re-tests this one, when the lot was judged again */
+            retestedBy: null | {
+                /** Format: uuid */
+                verdictId: string;
+                decision: components["schemas"]["Decision"];
+                reason: string;
+            };
+            /** @description Who submitted the lot; null for verdicts sealed before this was recorded */
+            submittedBy: null | components["schemas"]["Submitter"];
             result: components["schemas"]["EngineVerdict"];
             /** Format: date-time */
             recordedAt: string;
@@ -1110,19 +1526,6 @@ export interface components {
             computedSeal?: string | null;
             findings: string[];
         };
-        LedgerCheck: {
-            intact: boolean;
-            verdictsChecked: number;
-            head: {
-                sequence: number;
-                seal: string;
-            } | null;
-            firstBreak: {
-                sequence: number;
-                verdictId: string;
-                reason: string;
-            } | null;
-        };
         Recomputation: {
             /** Format: uuid */
             verdictId: string;
@@ -1154,10 +1557,14 @@ export interface components {
                 kid: string;
                 alg?: string;
                 use?: string;
+                /** @description Start of the key's validity window (RFC 7519 NumericDate): it signs nothing dated before this */
+                nbf: number;
+                /** @description End of the window (RFC 7519 NumericDate), absent while the key is current: it signs nothing dated at or after this (set by rotation, moved back by revocation) */
+                exp?: number;
             }[];
         };
         /** @enum {string} */
-        WebhookEvent: "verdict.created" | "verdict.nonconforming" | "verdict.second-sample-required";
+        WebhookEvent: "verdict.created" | "verdict.nonconforming" | "verdict.second-sample-required" | "ledger.checkpoint";
         WebhookInput: {
             /** Format: uri */
             url: string;
@@ -1247,7 +1654,7 @@ export interface components {
         FilterLine: string;
         /** @description Only verdicts with this decision */
         FilterDecision: components["schemas"]["Decision"];
-        /** @description Only lots with this lot code */
+        /** @description Only lots with this lot code (exactly as given; case and spaces count) */
         FilterLotCode: string;
         /** @description Only verdicts recorded at or after this time */
         FilterFrom: string;
@@ -1469,16 +1876,21 @@ export interface operations {
             content: {
                 /**
                  * @example {
-                 *       "role": "auditor"
+                 *       "roles": [
+                 *         "quality",
+                 *         "auditor"
+                 *       ]
                  *     }
                  */
                 "application/json": {
-                    role: components["schemas"]["Role"];
+                    roles?: components["schemas"]["RoleList"];
+                    /** @description The older form for one role; send `roles` instead, not both. */
+                    role?: components["schemas"]["Role"];
                 };
             };
         };
         responses: {
-            /** @description The user with the new role */
+            /** @description The user with the new roles */
             200: {
                 headers: {
                     [name: string]: unknown;
@@ -1530,13 +1942,17 @@ export interface operations {
                 /**
                  * @example {
                  *       "email": "line-lead@fernhill.example",
-                 *       "role": "quality"
+                 *       "roles": [
+                 *         "quality"
+                 *       ]
                  *     }
                  */
                 "application/json": {
                     /** Format: email */
                     email: string;
-                    role: components["schemas"]["Role"];
+                    roles?: components["schemas"]["RoleList"];
+                    /** @description The older form for one role; send `roles` instead, not both. */
+                    role?: components["schemas"]["Role"];
                 };
             };
         };
@@ -1605,7 +2021,9 @@ export interface operations {
                 content: {
                     "application/json": {
                         email: string;
+                        /** @description The first of `roles`, for older clients */
                         role: components["schemas"]["Role"];
+                        roles: components["schemas"]["RoleList"];
                         organisation: {
                             name: string;
                         };
@@ -1894,6 +2312,307 @@ export interface operations {
             default: components["responses"]["Problem"];
         };
     };
+    listCheckpoints: {
+        parameters: {
+            query?: {
+                /** @description Page size */
+                limit?: components["parameters"]["Limit"];
+                /** @description Opaque cursor from the previous page's `nextCursor` */
+                cursor?: components["parameters"]["Cursor"];
+            };
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description A page of checkpoints */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": {
+                        items: components["schemas"]["Checkpoint"][];
+                        nextCursor: string | null;
+                    };
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    issueCheckpoint: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Nothing was appended since the latest checkpoint, which this is */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Checkpoint"];
+                };
+            };
+            /** @description A new checkpoint */
+            201: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Checkpoint"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    getLatestCheckpoint: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The checkpoint with the largest tree size */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Checkpoint"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    getCheckpoint: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                treeSize: components["schemas"]["TreeSize"];
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The checkpoint */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Checkpoint"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    getInclusionProof: {
+        parameters: {
+            query?: {
+                seal?: string;
+                verdictId?: string;
+                /** @description The checkpoint to prove against (default the latest) */
+                treeSize?: components["schemas"]["TreeSize"];
+            };
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The proof, with the checkpoint it is against */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["InclusionProofReply"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    getConsistencyProof: {
+        parameters: {
+            query: {
+                /**
+                 * @description Tree size of the earlier checkpoint
+                 * @example 1
+                 */
+                fromSize: components["schemas"]["TreeSize"];
+                /** @description Tree size of the later checkpoint (default the latest) */
+                toSize?: components["schemas"]["TreeSize"];
+            };
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The proof, with both checkpoints */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["ConsistencyProofReply"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    verifyLedger: {
+        parameters: {
+            query?: {
+                /** @description First position to check (1-based) */
+                from?: components["schemas"]["TreeSize"];
+                /** @description Last position to check (at most the latest checkpoint's tree size) */
+                to?: components["schemas"]["TreeSize"];
+            };
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The result of the check */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["LedgerCheck"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    startLedgerWalk: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The walk has started */
+            202: {
+                headers: {
+                    Location?: string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["LedgerWalk"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    getLedgerWalk: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                walkId: string;
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The walk */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["LedgerWalk"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    listWitnesses: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The witnesses, oldest first */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": {
+                        items: components["schemas"]["Witness"][];
+                    };
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    addWitness: {
+        parameters: {
+            query?: never;
+            header?: {
+                /** @description Makes a retry safe; a replay returns the first response byte for byte. */
+                "Idempotency-Key"?: components["parameters"]["IdempotencyKey"];
+            };
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["WitnessInput"];
+            };
+        };
+        responses: {
+            /** @description The witness */
+            201: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Witness"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    removeWitness: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                witnessId: string;
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Removed; checkpoints already sent stay with the witness */
+            204: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content?: never;
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
     getUsage: {
         parameters: {
             query?: {
@@ -2100,6 +2819,21 @@ export interface operations {
                 column?: string;
                 /** @description (text/csv) Header of the per-pack tare column (tare mode per-pack) */
                 tareColumn?: string;
+                /**
+                 * @description (text/csv) What separates the columns. Omitted: found in the header row — a comma or a
+                 *     semicolon (a header with both is refused: choose), else a tab; a one-column header has
+                 *     none, and a row a comma would split is refused (a decimal comma, or a column too many?).
+                 */
+                delimiter?: "comma" | "semicolon" | "tab";
+                /**
+                 * @description (text/csv) The decimal separator. Omitted: the point in a comma-separated file, else the
+                 *     separator of the first value that has one; a value that could also be a number with a
+                 *     thousands separator ("500.125", "4,980") cannot decide it and is refused: choose.
+                 *     A value with the other separator, both, or one twice is refused: thousands separators
+                 *     are never read. A row with more fields than the header is refused, naming its line: a
+                 *     decimal comma in a comma-separated file must be quoted ("498,5") and chosen.
+                 */
+                decimal?: "point" | "comma";
                 /** @description (text/csv) The product, by id */
                 productId?: string;
                 /** @description (text/csv) The product, by SKU code */
@@ -2122,6 +2856,12 @@ export interface operations {
                 clientReference?: string;
                 /** @description (text/csv) The first sample's verdict, when this is a second sample */
                 firstSampleVerdictId?: string;
+                /** @description (text/csv) The lot's latest verdict, when this is a re-test of it (with retestReason) */
+                retestOf?: string;
+                /** @description (text/csv) Why the lot is judged again (with retestOf) */
+                retestReason?: string;
+                /** @description (text/csv) Seal the lot although packs lie outside the product's plausible band */
+                confirmImplausible?: boolean;
             };
             header?: {
                 /** @description Makes a retry safe; a replay returns the first response byte for byte. */
@@ -2146,6 +2886,7 @@ export interface operations {
                     "application/json": components["schemas"]["Verdict"];
                 };
             };
+            409: components["responses"]["Problem"];
             413: components["responses"]["Problem"];
             422: components["responses"]["Problem"];
             default: components["responses"]["Problem"];
@@ -2171,7 +2912,7 @@ export interface operations {
                 line?: components["parameters"]["FilterLine"];
                 /** @description Only verdicts with this decision */
                 decision?: components["parameters"]["FilterDecision"];
-                /** @description Only lots with this lot code */
+                /** @description Only lots with this lot code (exactly as given; case and spaces count) */
                 lotCode?: components["parameters"]["FilterLotCode"];
                 /** @description Only verdicts recorded at or after this time */
                 from?: components["parameters"]["FilterFrom"];
@@ -2314,27 +3055,6 @@ export interface operations {
             default: components["responses"]["Problem"];
         };
     };
-    verifyLedger: {
-        parameters: {
-            query?: never;
-            header?: never;
-            path?: never;
-            cookie?: never;
-        };
-        requestBody?: never;
-        responses: {
-            /** @description The result of the walk */
-            200: {
-                headers: {
-                    [name: string]: unknown;
-                };
-                content: {
-                    "application/json": components["schemas"]["LedgerCheck"];
-                };
-            };
-            default: components["responses"]["Problem"];
-        };
-    };
     exportVerdicts: {
         parameters: {
             query: {
@@ -2345,12 +3065,14 @@ export interface operations {
                 line?: components["parameters"]["FilterLine"];
                 /** @description Only verdicts with this decision */
                 decision?: components["parameters"]["FilterDecision"];
-                /** @description Only lots with this lot code */
+                /** @description Only lots with this lot code (exactly as given; case and spaces count) */
                 lotCode?: components["parameters"]["FilterLotCode"];
                 /** @description Only verdicts recorded at or after this time */
                 from?: components["parameters"]["FilterFrom"];
                 /** @description Only verdicts recorded before this time */
                 to?: components["parameters"]["FilterTo"];
+                /** @description NDJSON only: export the positions after the checkpoint of this tree size (one you pinned) */
+                fromSize?: number;
             };
             header?: never;
             path?: never;

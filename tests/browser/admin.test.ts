@@ -64,6 +64,8 @@ describe('the other admin views', () => {
   it('draws users, usage, webhooks and the audit trail', async () => {
     const { page } = await h.open();
     await signIn(page, h.users.admin);
+    // an admin lands on the verdicts (admins read verdicts, issue 16); users is a section beside them
+    await page.locator('[data-nav-item="users"]').click();
     await page.locator('[data-users-table]').waitFor();
     expect(await page.locator('[data-user]').count()).toBe(3);
     await page.getByLabel('E-mail').fill('new.colleague@example.test');
@@ -132,8 +134,8 @@ describe('the other admin views', () => {
     const summary = await page.locator('[data-form-summary]').innerText();
     expect(summary).toMatch(/fields need attention/);
     expect(await page.locator('#p-sku-error').innerText()).toMatch(/letters, digits/i);
-    expect(await page.locator('#p-qn-error').innerText()).toBe('Must be greater than 0.');
-    expect(await page.locator('#p-name-error').innerText()).toBe('Required.');
+    expect(await page.locator('#p-qn-error').innerText()).toBe('The nominal quantity must be more than 0.');
+    expect(await page.locator('#p-name-error').innerText()).toBe('Enter the name.');
     await screenshot(page, '41-product-form-errors-tablet');
     await page.getByLabel('SKU code').fill('HONEY-340G');
     await page.getByLabel('Name', { exact: true }).fill('Blossom honey 340 g');

@@ -76,7 +76,7 @@ describe('the auditor checks a seal in the browser', () => {
     await signIn(page, h.users.auditor);
     await page.locator('[data-nav-item="audit-lookup"]').click();
     await page.getByLabel('Seal or sealed document').fill(seal);
-    await page.getByRole('button', { name: 'Check' }).click();
+    await page.getByRole('button', { name: 'Check', exact: true }).click();
     await page.locator('[data-lookup-result]').waitFor();
     for (const check of ['hash', 'signature', 'chain-link']) {
       expect(await page.locator(`[data-check="${check}"]`).getAttribute('data-state')).toBe('pass');
@@ -102,12 +102,12 @@ describe('the auditor checks a seal in the browser', () => {
     // The untouched export checks out…
     await page.goto('/audit/lookup');
     await page.getByLabel('Seal or sealed document').fill(JSON.stringify(doc));
-    await page.getByRole('button', { name: 'Check' }).click();
+    await page.getByRole('button', { name: 'Check', exact: true }).click();
     await page.locator('[data-lookup-result][data-verdict="pass"]').waitFor();
     // …and one changed measurement is caught.
     doc.record.input.lot.measurements[0] += 5;
     await page.getByLabel('Seal or sealed document').fill(JSON.stringify(doc));
-    await page.getByRole('button', { name: 'Check' }).click();
+    await page.getByRole('button', { name: 'Check', exact: true }).click();
     await page.locator('[data-lookup-result][data-verdict="fail"]').waitFor();
     expect(await page.locator('[data-check="hash"]').getAttribute('data-state')).toBe('fail');
     expect(await page.locator('[data-check="signature"]').getAttribute('data-state')).toBe('pass');

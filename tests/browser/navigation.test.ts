@@ -13,12 +13,12 @@ describe('navigation per role', () => {
     await screenshot(page, '01-sign-in');
   });
 
-  it('gives an admin users, keys, usage, webhooks and the audit trail', async () => {
+  it('gives an admin verdicts, users, keys, usage, webhooks, the ledger (its witnesses) and the audit trail', async () => {
     const { page } = await h.open();
     await signIn(page, h.users.admin);
-    expect(await navigationNames(page)).toEqual(['users', 'keys', 'usage', 'webhooks', 'audit-trail']);
+    expect(await navigationNames(page)).toEqual(['verdicts', 'users', 'keys', 'usage', 'webhooks', 'ledger', 'audit-trail']);
     await page.goto('/products');
-    await page.waitForURL(/\/admin\/users$/);
+    await page.waitForURL(/\/verdicts$/);
   });
 
   it('gives a quality engineer verdicts, lots and products', async () => {

@@ -132,7 +132,7 @@ export async function navigationNames(page: Page): Promise<string[]> {
 
 /** A product of the harness's organisation, created through the service the API uses. */
 export async function seedProduct(h: Harness, input: Partial<ProductInput> = {}): Promise<{ id: string; sku: string; name: string }> {
-  const principal: Principal = { organisationId: h.organisationId, kind: 'session', scopes: [], role: 'quality' };
+  const principal: Principal = { organisationId: h.organisationId, kind: 'session', scopes: [], roles: ['quality'] };
   const sku = input.sku ?? `BRW-${Math.random().toString(36).slice(2, 8).toUpperCase()}`;
   return createProduct(principal, {
     sku,

@@ -1,4 +1,5 @@
-// The CSV preview: what the quality engineer sees before a lot is sent.
+// The CSV preview: what the quality engineer sees before a lot is sent (the shared reader, through
+// console/src/lib/csv.ts; its fixtures are run in csv-fixtures.test.ts).
 import { describe, expect, it } from 'vitest';
 import { parseMeasurementsCsv } from '../../console/src/lib/csv';
 import { previewLot, type LotForm } from '../../console/src/lib/preview';
@@ -19,8 +20,12 @@ describe('parseMeasurementsCsv', () => {
     expect(parsed.problems).toEqual([]);
   });
 
-  it('reads a single column of numbers without a header', () => {
-    expect(parseMeasurementsCsv('500.1\n499.9\n500.4').measurements).toEqual([500.1, 499.9, 500.4]);
+  it('reads a one-column file by its header, whatever its name', () => {
+    expect(parseMeasurementsCsv('kg\n500.1\n499.9\n500.4').measurements).toEqual([500.1, 499.9, 500.4]);
+  });
+
+  it('needs a header row, as the server does: a first row of numbers is a header naming no measurement column', () => {
+    expect(parseMeasurementsCsv('500.1,1\n499.9,2\n').problems[0]).toMatch(/^Line 1: no measurement column/);
   });
 
   it('reads decimal commas in a semicolon-separated file', () => {
@@ -29,14 +34,23 @@ describe('parseMeasurementsCsv', () => {
     expect(parsed.tares).toEqual([12.1, 12.3]);
   });
 
-  it('names the file row of a value that is not a number', () => {
+  it('names the line of a value that is not a number, and reads nothing from the file', () => {
     const parsed = parseMeasurementsCsv('measurement\n500\nabc\n501');
-    expect(parsed.problems).toEqual(['Row 3: "abc" is not a number.']);
+    expect(parsed.problems).toEqual(['Line 3: "abc" in column "measurement" is not a number.']);
+    expect(parsed.measurements).toEqual([]);
+  });
+
+  it('reports the blank lines it skipped, and a measurement keeps the line it was on', () => {
+    const parsed = parseMeasurementsCsv('net\n500\n\n501\n');
     expect(parsed.measurements).toEqual([500, 501]);
+    expect(parsed.lines).toEqual([2, 4]);
+    expect(parsed.blankLines).toEqual([3]);
   });
 
   it('says which header it could not use', () => {
-    expect(parseMeasurementsCsv('pack,operator\n1,ann').problems[0]).toMatch(/No measurement column.*"pack", "operator"/);
+    const parsed = parseMeasurementsCsv('pack,operator\n1,ann');
+    expect(parsed.problems[0]).toMatch(/no measurement column.*"pack", "operator"/);
+    expect(parsed.headers).toEqual(['pack', 'operator']);
   });
 });
 
@@ -67,7 +81,7 @@ describe('previewLot', () => {
 
   it('passes file problems through without running the engine', () => {
     const preview = previewLot(product, form, parseMeasurementsCsv('measurement\n500\n-\n'));
-    expect(preview).toEqual({ ok: false, message: 'Row 3: "-" is not a number.', pointer: null });
+    expect(preview).toEqual({ ok: false, message: 'Line 3: "-" in column "measurement" is not a number.', pointer: null });
   });
 });
 

@@ -5,7 +5,13 @@ import { mount } from '@vue/test-utils';
 import { nextTick } from 'vue';
 import { apiQuery, EMPTY_FILTERS, filterProblem, filtersFromQuery, nextSort, queryFromFilters, SORTS } from '../../console/src/lib/verdictFilters';
 import { crossFieldErrors, draftOf, emptyDraft, productInputOf } from '../../console/src/lib/productForm';
-import { validateProductInput, validateWebhookInput } from '../../console/src/lib/formValidation';
+import { placeErrors, plainFieldMessage, validateProductInput, validateWebhookInput } from '../../console/src/lib/formValidation';
+import { fieldErrors } from '../../console/src/api/problem';
+import Ajv from 'ajv';
+import addFormats from 'ajv-formats';
+import { createPinia } from 'pinia';
+import { createMemoryHistory, createRouter } from 'vue-router';
+import ProductFormView from '../../console/src/views/ProductFormView.vue';
 import FilterBar from '../../console/src/components/FilterBar.vue';
 
 describe('verdict filters', () => {
@@ -77,18 +83,18 @@ describe('product form', () => {
     expect(draftOf(stored as never).nonDestructivePlan).toBe('single');
   });
 
-  it('names each bad field in words, by its pointer', () => {
+  it('names each bad field in words, by its pointer, in a sentence that says which field', () => {
     const errors = validateProductInput(productInputOf({ ...good, sku: 'no spaces allowed', name: '', nominalQuantity: '0', alertRecipients: 'qa@plant.example, not-an-address' }));
     expect(errors).toEqual({
-      '/sku': 'Use letters, digits, dots, dashes or underscores, starting with a letter or digit (at most 64).',
-      '/name': 'Required.',
-      '/nominalQuantity': 'Must be greater than 0.',
-      '/alertRecipients/1': 'Not an e-mail address.',
+      '/sku': 'Check the SKU code: it may use letters, digits, dots, dashes or underscores, starts with a letter or digit and has at most 64 characters.',
+      '/name': 'Enter the name.',
+      '/nominalQuantity': 'The nominal quantity must be more than 0.',
+      '/alertRecipients/1': 'The 2nd of the alert recipients is not an e-mail address.',
     });
   });
 
-  it('keeps text that is not a number, so the schema says "Enter a number"', () => {
-    expect(validateProductInput(productInputOf({ ...good, nominalQuantity: 'five hundred' }))['/nominalQuantity']).toBe('Enter a number.');
+  it('keeps text that is not a number, so the schema asks for a number', () => {
+    expect(validateProductInput(productInputOf({ ...good, nominalQuantity: 'five hundred' }))['/nominalQuantity']).toBe('Enter the nominal quantity as a number.');
   });
 
   it('reads a decimal comma and asks for the tare of a fixed tare mode', () => {
@@ -97,7 +103,89 @@ describe('product form', () => {
   });
 
   it('checks a webhook address against WebhookInput', () => {
-    expect(validateWebhookInput({ url: 'ftp://x.example', events: ['verdict.created'] })['/url']).toBe('Start the address with http:// or https://.');
-    expect(validateWebhookInput({ url: 'https://mes.example/hook', events: [] })['/events']).toBe('Choose at least one.');
+    expect(validateWebhookInput({ url: 'ftp://x.example', events: ['verdict.created'] })['/url']).toBe('Check the address: it starts with http:// or https://.');
+    expect(validateWebhookInput({ url: 'https://mes.example/hook', events: [] })['/events']).toBe('Choose at least one of the events.');
+  });
+});
+
+describe('the server’s field messages in the user’s words', () => {
+  // The server's validator (express-openapi-validator) passes on Ajv 8's English messages; they are
+  // produced here by Ajv itself (the `ajv` package the server uses), not written from memory.
+  const ajv = new Ajv({ allErrors: true });
+  addFormats(ajv);
+  const validate = ajv.compile({
+    type: 'object',
+    required: ['name', 'lotSize'],
+    properties: {
+      name: { type: 'string', minLength: 3, maxLength: 5 },
+      email: { type: 'string', format: 'email' },
+      lotSize: { type: 'integer', minimum: 1 },
+      density: { type: 'number', exclusiveMinimum: 0 },
+      role: { enum: ['admin', 'quality', 'auditor'] },
+      events: { type: 'array', minItems: 1 },
+    },
+  });
+  const messages = (value: unknown) => {
+    validate(value);
+    return (validate.errors ?? []).map((e) => ({ pointer: e.instancePath, detail: e.message ?? '' }));
+  };
+
+  it('reads each of Ajv’s messages back into a sentence naming the field', () => {
+    const found = messages({ name: 'ab', email: 'nope', lotSize: 0, density: 0, role: 'boss', events: [] });
+    const plain = Object.fromEntries(found.map((f) => [f.pointer, plainFieldMessage(f.pointer, f.detail)]));
+    expect(found.find((f) => f.pointer === '/name')!.detail).toMatch(/^must NOT have fewer than 3 characters$/);
+    expect(plain).toEqual({
+      '/name': 'The name needs at least 3 characters.',
+      '/email': 'The e-mail address is not an e-mail address.',
+      '/lotSize': 'The lot size must be at least 1.',
+      '/density': 'The density must be more than 0.',
+      '/role': 'Choose the role from the list.',
+      '/events': 'Choose at least one of the events.',
+    });
+    for (const text of Object.values(plain)) expect(text).not.toMatch(/must NOT|must have required|must match|must be [<>=]|must be equal/);
+  });
+
+  it('says which field is missing or too long, and keeps a message the rules wrote for people', () => {
+    const missing = messages({ name: 'abcdef' });
+    const required = missing.find((f) => /required/.test(f.detail))!;
+    expect(plainFieldMessage(required.pointer, required.detail)).toBe('Enter the lot size.');
+    const long = missing.find((f) => f.pointer === '/name')!;
+    expect(plainFieldMessage(long.pointer, long.detail)).toBe('The name can have at most 5 characters.');
+    expect(plainFieldMessage('/lotCode', 'Lot L-7 of this product already has a verdict.')).toBe('Lot L-7 of this product already has a verdict.');
+  });
+
+  it('fieldErrors turns a problem’s validator messages into plain ones', () => {
+    const [bad] = messages({ name: 'ab', lotSize: 3 });
+    const errors = fieldErrors({ type: 'about:blank', title: 'Request is not valid', status: 400, errors: [{ pointer: `/body${bad!.pointer}`, detail: bad!.detail }] });
+    expect(errors).toEqual({ '/name': 'The name needs at least 3 characters.' });
+  });
+});
+
+describe('a form’s error count', () => {
+  it('places each error on one field: items on their list, nested pointers on their field, the rest apart', () => {
+    const placed = placeErrors(
+      { '/alertRecipients/1': 'a', '/alertRecipients/3': 'b', '/rulebook': 'c', '/rulebook/params/minimumSampleSize': 'd', '/tareUnit': 'e' },
+      { '/alertRecipients': ['/alertRecipients'], '/rulebook/params/alpha': ['/rulebook/params/alpha', '/rulebook'], '/rulebook/params/minimumSampleSize': ['/rulebook/params/minimumSampleSize'] },
+    );
+    expect(placed.byField).toEqual({ '/alertRecipients': 'a b', '/rulebook/params/alpha': 'c', '/rulebook/params/minimumSampleSize': 'd' });
+    expect(placed.unplaced).toEqual(['e']);
+    expect(placed.count).toBe(3);
+  });
+
+  it('the product form says as many fields need attention as it marks', async () => {
+    const router = createRouter({ history: createMemoryHistory(), routes: [{ path: '/', name: 'products', component: { template: '<p/>' } }] });
+    const wrapper = mount(ProductFormView, { global: { plugins: [createPinia(), router] }, attachTo: document.body });
+    await wrapper.find('#p-sku').setValue('no spaces');
+    await wrapper.find('#p-qn').setValue('0');
+    await wrapper.find('#p-alerts').setValue('not-an-address, also-wrong, qa@plant.example');
+    await wrapper.find('form').trigger('submit');
+    await nextTick();
+    const marked = wrapper.findAll('[data-field-error]');
+    const summary = wrapper.find('[data-form-summary]').text();
+    // sku, name (left empty), Qn, and the alert recipients (two bad addresses, one field).
+    expect(marked.length).toBe(4);
+    expect(summary).toMatch(/^4 fields need attention/);
+    expect(wrapper.find('#p-alerts-error').text()).toBe('The 1st of the alert recipients is not an e-mail address. The 2nd of the alert recipients is not an e-mail address.');
+    wrapper.unmount();
   });
 });

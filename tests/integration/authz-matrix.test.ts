@@ -1,13 +1,14 @@
 // The authorisation matrix: EVERY operation of the merged OpenAPI document × every kind of caller —
 // no credential, a malformed/unknown key, a revoked key, an expired key, a key of each single scope,
-// a console session of each role, and credentials of another organisation — against the rule the
+// a console session of each role and of users holding several roles (any one of them allowed
+// passes), and credentials of another organisation — against the rule the
 // operation declares in `x-lotproof-access`. Operations added later are covered without editing
 // this file; an operation without a rule cannot even be loaded (openapi/load.ts throws).
 import { randomBytes, randomUUID } from 'node:crypto';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Operation } from '../../openapi/load';
-import { ApiKey, type Organisation, type User } from '../../server/models';
+import { ApiKey, User, type Organisation } from '../../server/models';
 import type { RunningSmtpFake } from '../../server/platform/smtp-fake';
 import { issueInvitation } from '../../server/identity/invitations';
 import { ROLES, SCOPES, type Role, type Scope } from '../../server/core/principal';
@@ -22,6 +23,9 @@ let t: TestApp;
 let orgA: Organisation;
 let orgB: Organisation;
 const usersA = {} as Record<Role, User>;
+/** Users of A holding several roles at once (issue 16). */
+const ROLE_SETS: Role[][] = [['quality', 'auditor'], ['admin', 'quality'], ['admin', 'auditor'], ['admin', 'quality', 'auditor']];
+const multiA = new Map<Role[], User>();
 let adminB: User;
 const keysA = {} as Record<Scope, string>;
 let allScopesB: string;
@@ -119,6 +123,11 @@ beforeAll(async () => {
   orgA = await createTestOrganisation('Matrix packer A');
   orgB = await createTestOrganisation('Matrix packer B');
   for (const role of ROLES) usersA[role] = await createTestUser(orgA.id, role);
+  for (const set of ROLE_SETS) {
+    const u = await createTestUser(orgA.id, set[0]!);
+    await u.update({ roles: set });
+    multiA.set(set, await User.findByPk(u.id) as User);
+  }
   adminB = await createTestUser(orgB.id, 'admin');
   for (const scope of SCOPES) keysA[scope] = await createTestKey(orgA.id, [scope]);
   allScopesB = await createTestKey(orgB.id, [...SCOPES]);
@@ -153,7 +162,7 @@ describe('the document', () => {
 describe('another organisation never reaches this one', () => {
   for (const op of operations) {
     it(`${op.operationId} (${op.method.toUpperCase()} ${op.path})`, async () => {
-      const aIds = [orgA.id, ...Object.values(usersA).map((u) => u.id), ...Object.values(fixtureIds)];
+      const aIds = [orgA.id, ...Object.values(usersA).map((u) => u.id), ...[...multiA.values()].map((u) => u.id), ...Object.values(fixtureIds)];
       const hasPathIds = parametersOf(op).some((p) => p.in === 'path' && fixtureIds[p.name]);
       const body = exampleBody(op) ?? {};
       for (const [label, cred] of [
@@ -202,6 +211,12 @@ describe('every operation × every caller', () => {
         const res = await call(op, { kind: 'session', user: usersA[role] });
         if (allowsRole(op, role)) expectPassed(res, `${name} as ${role}`);
         else expectDenied(res, 403, `${name} as ${role}`);
+      }
+      // a session of several roles: passes when any one of them is allowed
+      for (const [set, user] of multiA) {
+        const res = await call(op, { kind: 'session', user });
+        if (set.some((role) => allowsRole(op, role))) expectPassed(res, `${name} as ${set.join('+')}`);
+        else expectDenied(res, 403, `${name} as ${set.join('+')}`);
       }
       // CSRF: an unsafe call on a session without X-Lotproof-Console is refused, whatever the role
       if (UNSAFE.has(op.method)) {

@@ -6,16 +6,17 @@ import { randomUUID } from 'node:crypto';
 import { Sequelize, QueryTypes } from 'sequelize';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { migrator } from '../../server/db/migrate';
-import { testDatabaseUrl } from '../support/app';
+import { testSuperuserUrl } from '../support/app';
 
 const name = `lotproof_mig_${randomUUID().slice(0, 8)}`;
 let admin: Sequelize;
 let db: Sequelize;
 
 beforeAll(async () => {
-  admin = new Sequelize(testDatabaseUrl(), { dialect: 'postgres', logging: false });
+  // Creating a database takes the cluster's administrator; the app's role may not.
+  admin = new Sequelize(testSuperuserUrl(), { dialect: 'postgres', logging: false });
   await admin.query(`CREATE DATABASE ${name}`);
-  const url = new URL(testDatabaseUrl());
+  const url = new URL(testSuperuserUrl());
   url.pathname = `/${name}`;
   db = new Sequelize(url.toString(), { dialect: 'postgres', logging: false, define: { underscored: true, timestamps: false } });
   await migrator(db).up({ to: '0102-session-idle-timeout' });

@@ -3,6 +3,7 @@
 // (5), invitations of a removed or demoted admin restoring admin access (6), and the smaller ones of
 // 16: the last-admin check raced, an invitation's 409 telling one tenant about another's accounts,
 // the session cookie without the __Host- prefix over https.
+import { Op } from 'sequelize';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { AuditEvent, Invitation, User, type Organisation } from '../../server/models';
@@ -185,7 +186,7 @@ describe('invitations of an admin who is removed or demoted (issue 14, item 6)',
     const { a, aCookie } = await adminsOf('Stale inviter packer');
     const inv = await invite(aCookie, unique('stale'), 'admin');
     // as a row written before this rule existed would be: the inviter demoted, the invitation still pending
-    await User.update({ role: 'quality' }, { where: { id: a.id } });
+    await User.update({ roles: ['quality'] }, { where: { id: a.id } });
     expect((await Invitation.findByPk(inv.id))?.revokedAt).toBeNull();
     const res = await accept(inv.token);
     expect(res.status).toBe(422);
@@ -211,7 +212,7 @@ describe('smaller identity faults (issue 14, item 16)', () => {
           ? request(t.app).patch(`/v1/users/${target}`).set('Cookie', cookie).set(C).send({ role: 'quality' })
           : request(t.app).delete(`/v1/users/${target}`).set('Cookie', cookie).set(C);
       const statuses = (await Promise.all([change(aCookie, b.id), change(bCookie, a.id)])).map((r) => r.status);
-      expect(await User.count({ where: { organisationId: o.id, role: 'admin', removedAt: null } })).toBe(1);
+      expect(await User.count({ where: { organisationId: o.id, roles: { [Op.contains]: ['admin'] }, removedAt: null } })).toBe(1);
       // one change goes through; the other is refused (409 last admin, or 401/403 when its caller lost the role first)
       expect(statuses.filter((s) => s < 300)).toHaveLength(1);
       expect(statuses.every((s) => s < 300 || [401, 403, 409].includes(s))).toBe(true);

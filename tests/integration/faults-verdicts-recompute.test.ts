@@ -68,12 +68,14 @@ describe('item 16: recomputing a stored lot of 1 000 000 measurements leaves /he
     const w = await watchWhile(() => call('GET', '/v1/exports/verdicts?format=ndjson', auth()));
     console.log(`NDJSON export with the big lot: ${w.result.bytes} bytes in ${(performance.now() - t0).toFixed(0)} ms; ${describeWatch(w)}`);
     expect(w.result.status).toBe(200);
+    // lotproof.export/2: the header line, then one sealed document a line.
     const lines = w.result.text.trim().split('\n');
-    expect(lines.length).toBe(2);
-    const doc = JSON.parse(lines[0]!) as { record: { input: { lot: { measurements: number[] } } }; seal: string };
+    expect(lines.length).toBe(3);
+    expect(JSON.parse(lines[0]!).format).toBe('lotproof.export/2');
+    const doc = JSON.parse(lines[1]!) as { record: { input: { lot: { measurements: number[] } } }; seal: string };
     expect(doc.record.input.lot.measurements.length).toBe(1_000_000);
     const { createHash } = await import('node:crypto');
-    const recordText = lines[0]!.slice(lines[0]!.indexOf('"record":') + 9, lines[0]!.lastIndexOf(',"seal":'));
+    const recordText = lines[1]!.slice(lines[1]!.indexOf('"record":') + 9, lines[1]!.lastIndexOf(',"seal":'));
     expect(createHash('sha256').update(recordText).digest('hex')).toBe(doc.seal);
     expect(w.holdMs, 'the longest the server held the event loop').toBeLessThan(100);
   }, 30_000);

@@ -3,13 +3,13 @@
 import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import { randomBytes, randomUUID } from 'node:crypto';
 import { once } from 'node:events';
-import { existsSync, readFileSync, statSync } from 'node:fs';
+import { existsSync, readdirSync, readFileSync, statSync } from 'node:fs';
 import { join } from 'node:path';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { initModels, WebhookEndpoint } from '../../server/models';
 import { freePort } from '../../server/platform/embedded-postgres';
-import { buildTestApp, createTestKey, createTestOrganisation, testConfig, testDatabaseUrl, type TestApp } from '../support/app';
+import { buildTestApp, createTestKey, createTestOrganisation, testConfig, testDatabaseUrl, testOwnerUrl, type TestApp } from '../support/app';
 import { createTestUser, sessionCookieFor } from '../support/identity';
 import { useTempDirs } from '../support/temp-dirs';
 import { secretBox } from '../../server/core/secret-box';
@@ -116,7 +116,7 @@ describe('operator CLI', () => {
   }
   function cliWith(env: Record<string, string>, ...args: string[]) {
     const r = spawnSync('npx', ['tsx', 'server/bin/cli.ts', ...args], {
-      env: { ...process.env, DATABASE_URL: testDatabaseUrl(), NODE_ENV: 'test', LOTPROOF_PUBLIC_URL: 'http://console.test', ...env },
+      env: { ...process.env, DATABASE_URL: testDatabaseUrl(), LOTPROOF_MIGRATION_DATABASE_URL: testOwnerUrl(), NODE_ENV: 'test', LOTPROOF_PUBLIC_URL: 'http://console.test', ...env },
       encoding: 'utf8',
     });
     return { code: r.status, out: r.stdout, err: r.stderr };
@@ -152,19 +152,22 @@ describe('operator CLI', () => {
     expect(badScope.err).toMatch(/scopes/);
   }, 90_000);
 
-  it('rotates the seal signing key: the old one is retired beside it, both public keys are published', async () => {
+  it('rotates the seal signing key: the old private half is deleted, both public keys are published with their windows', async () => {
     const dataDir = tempDir();
     const env = { LOTPROOF_DATA_DIR: dataDir };
     const first = cliWith(env, 'signing-key:rotate');
     expect(first.code, first.err).toBe(0);
-    const [, oldKid, newKid] = /retired (\S+) .*\nsigning key is now (\S+);/s.exec(first.out) ?? [];
-    expect(oldKid).toMatch(/^[A-Za-z0-9_-]{43}$/);
+    const [, oldKid, exp, newKid, nbf] = /retired (\S+): its private key is deleted; it signs nothing dated at or after (\S+) .*\nsigning key is now (\S+) \(valid from (\S+)\)/s.exec(first.out) ?? [];
+    expect(oldKid, first.out).toMatch(/^[A-Za-z0-9_-]{43}$/);
     expect(newKid).toMatch(/^[A-Za-z0-9_-]{43}$/);
     expect(newKid).not.toBe(oldKid);
-    expect(existsSync(join(dataDir, `signing-key.${oldKid}.retired.pem`))).toBe(true);
+    // issue 15: no private half of a retired key stays on disk
+    expect(readdirSync(dataDir).filter((f) => f.includes('retired'))).toEqual([]);
     expect(statSync(join(dataDir, 'signing-key.pem')).mode & 0o777).toBe(0o600);
-    const kids = (await request(t.app).get('/.well-known/jwks.json')).body.keys.map((k: { kid: string }) => k.kid);
-    expect(kids).toEqual(expect.arrayContaining([oldKid, newKid]));
+    const keys = (await request(t.app).get('/.well-known/jwks.json')).body.keys as { kid: string; nbf?: number; exp?: number }[];
+    const byKid = new Map(keys.map((k) => [k.kid, k]));
+    expect(byKid.get(oldKid!)?.exp).toBe(Math.floor(new Date(exp!).getTime() / 1000));
+    expect(byKid.get(newKid!)?.nbf).toBe(Math.floor(new Date(nbf!).getTime() / 1000));
     const fromEnv = cliWith({ ...env, LOTPROOF_SIGNING_KEY: readFileSync(join(dataDir, 'signing-key.pem'), 'utf8') }, 'signing-key:rotate');
     expect(fromEnv.code).toBe(2);
     expect(fromEnv.err).toMatch(/LOTPROOF_SIGNING_KEY/);

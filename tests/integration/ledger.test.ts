@@ -10,7 +10,8 @@ import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { startJobs, type RunningJobs } from '../../server/jobs';
 import { canonicalJson, canonicalJsonReference } from '../../server/verdicts/canonical';
-import { buildTestApp, createTestKey, createTestOrganisation, type TestApp } from '../support/app';
+import { Sequelize } from 'sequelize';
+import { buildTestApp, createTestKey, createTestOrganisation, testSuperuserUrl, type TestApp } from '../support/app';
 import { createProduct, lotBody } from '../support/lots';
 
 let a: TestApp;
@@ -116,13 +117,18 @@ describe('a changed record', () => {
     const auth = { Authorization: `Bearer ${key}` };
     await createProduct(a.app, key);
     for (let i = 0; i < 4; i++) expect((await request(a.app).post('/v1/lots').set(auth).send(lotBody('T-OATS-500', 2000 + i))).status).toBe(201);
-    const sq = a.ctx.db.sequelize;
-    // Only a superuser can do this: switch the append-only trigger off for one forged change.
-    await sq.transaction(async (t) => {
-      await sq.query('ALTER TABLE verdicts DISABLE TRIGGER verdicts_append_only', { transaction: t });
-      await sq.query(`UPDATE verdicts SET record = replace(record, '"decision":"conforming"', '"decision":"nonconforming"') WHERE organisation_id = $1 AND sequence = 3`, { bind: [org.id], transaction: t });
-      await sq.query('ALTER TABLE verdicts ENABLE TRIGGER verdicts_append_only', { transaction: t });
-    });
+    // Only the database administrator can do this (the app's role may not: ledger-privileges.test.ts):
+    // switch the append-only trigger off for one forged change.
+    const sq = new Sequelize(testSuperuserUrl(), { dialect: 'postgres', logging: false });
+    try {
+      await sq.transaction(async (t) => {
+        await sq.query('ALTER TABLE verdicts DISABLE TRIGGER verdicts_append_only', { transaction: t });
+        await sq.query(`UPDATE verdicts SET record = replace(record, '"decision":"conforming"', '"decision":"nonconforming"') WHERE organisation_id = $1 AND sequence = 3`, { bind: [org.id], transaction: t });
+        await sq.query('ALTER TABLE verdicts ENABLE TRIGGER verdicts_append_only', { transaction: t });
+      });
+    } finally {
+      await sq.close();
+    }
     const chain = await request(a.app).get('/v1/ledger/verify').set(auth);
     expect(chain.body.intact).toBe(false);
     expect(chain.body.firstBreak.sequence).toBe(3);

@@ -32,12 +32,17 @@ beforeAll(async () => {
   const org = await createTestOrganisation('Sorting test packer');
   key = await createTestKey(org.id, ['lots:submit', 'verdicts:read', 'products:write']);
   const product = await createProduct(t.app, key);
+  const judged = new Map<string, string>();
   for (const [i, l] of LOTS.entries()) {
     const body = lotBody(product.sku, 100 + i, { lotCode: l.code, packedAt: l.packedAt ?? undefined });
+    // a lot is judged once (issue 16): its second verdict is a re-test of the first
+    const earlier = judged.get(l.code);
+    if (earlier) body.retest = { of: earlier, reason: 'sorting test: one lot code, two verdicts' };
     if (l.packedAt === null) delete body.packedAt;
     if (l.short) body.measurements = measurements(100 + i, 50, 494, 2);
     const res = await request(t.app).post('/v1/lots').set('Authorization', `Bearer ${key}`).send(body);
     expect(res.status, JSON.stringify(res.body)).toBe(201);
+    judged.set(l.code, res.body.id);
     all.push(res.body);
   }
   // Another organisation's verdicts never appear in the list.

@@ -2,7 +2,8 @@
 // bad lots as problem details, tenant isolation.
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { buildTestApp, createTestKey, createTestOrganisation, type TestApp } from '../support/app';
+import { Sequelize } from 'sequelize';
+import { buildTestApp, createTestKey, createTestOrganisation, testOwnerUrl, type TestApp } from '../support/app';
 import { createProduct, lotBody, measurements } from '../support/lots';
 
 let t: TestApp;
@@ -326,11 +327,16 @@ describe('products', () => {
 });
 
 describe('verdicts are append-only', () => {
-  it('an UPDATE or DELETE on a verdict row fails in the database', async () => {
+  it('an UPDATE or DELETE on a verdict row fails in the database, even as the tables\' owner (the trigger)', async () => {
     const v = await request(t.app).post('/v1/lots').set(auth()).send(lotBody(product.sku, 60));
-    const sq = t.ctx.db.sequelize;
-    await expect(sq.query("UPDATE verdicts SET decision = 'conforming' WHERE id = $1", { bind: [v.body.id] })).rejects.toThrow(/append-only/);
-    await expect(sq.query('DELETE FROM verdicts WHERE id = $1', { bind: [v.body.id] })).rejects.toThrow(/append-only/);
+    // The app's own role may not even try (ledger-privileges.test.ts); the owner meets the trigger.
+    const sq = new Sequelize(testOwnerUrl(), { dialect: 'postgres', logging: false });
+    try {
+      await expect(sq.query("UPDATE verdicts SET decision = 'conforming' WHERE id = $1", { bind: [v.body.id] })).rejects.toThrow(/append-only/);
+      await expect(sq.query('DELETE FROM verdicts WHERE id = $1', { bind: [v.body.id] })).rejects.toThrow(/append-only/);
+    } finally {
+      await sq.close();
+    }
     const still = await request(t.app).get(`/v1/verdicts/${v.body.id}`).set(auth());
     expect(still.body.seal.value).toBe(v.body.seal.value);
   });
@@ -379,9 +385,12 @@ describe('verifying', () => {
       res.on('data', (c: Buffer) => (s += c.toString('utf8')));
       res.on('end', () => cb(null, s));
     });
-    const lines = (nd.body as string).trim().split('\n').map((l) => JSON.parse(l));
+    // lotproof.export/2: a header naming the checkpoint and the filter, then the documents with their proofs.
+    const [header, ...lines] = (nd.body as string).trim().split('\n').map((l) => JSON.parse(l));
+    expect(header).toMatchObject({ format: 'lotproof.export/2', complete: false, filter: { decision: 'conforming' }, from: 1, to: header.checkpoint.treeSize });
     expect(lines.length).toBeGreaterThan(2);
     expect(lines.every((d) => d.record.result.decision === 'conforming')).toBe(true);
+    expect(lines.every((d) => d.inclusion.treeSize === header.checkpoint.treeSize && d.inclusion.leafIndex === d.record.sequence - 1)).toBe(true);
     expect(lines[0].record.sequence).toBeLessThan(lines[1].record.sequence);
   });
 });

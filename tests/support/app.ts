@@ -17,6 +17,20 @@ export function testDatabaseUrl(): string {
   return url;
 }
 
+/** The tables' owner (migrations, DDL), set by tests/run.ts; the app's own role is DATABASE_URL's. */
+export function testOwnerUrl(): string {
+  const url = process.env.LOTPROOF_TEST_OWNER_URL;
+  if (!url) throw new Error('LOTPROOF_TEST_OWNER_URL is not set: run the suite with `npm test`.');
+  return url;
+}
+
+/** The cluster's superuser, for tests that play the database administrator (or create databases). */
+export function testSuperuserUrl(): string {
+  const url = process.env.LOTPROOF_TEST_SUPERUSER_URL;
+  if (!url) throw new Error('LOTPROOF_TEST_SUPERUSER_URL is not set: run the suite with `npm test`.');
+  return url;
+}
+
 export interface TestApp {
   app: Express;
   ctx: AppContext;

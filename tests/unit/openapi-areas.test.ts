@@ -9,7 +9,7 @@ import { parse } from 'yaml';
 import { afterEach, describe, expect, it } from 'vitest';
 import { AREA_KEY, HTTP_METHODS, loadApiDocument, operationsOf } from '../../openapi/load';
 
-const AREAS = ['system', 'identity', 'metering', 'products', 'verdicts', 'webhooks'];
+const AREAS = ['system', 'identity', 'metering', 'products', 'verdicts', 'ledger', 'webhooks'];
 const openapiDir = fileURLToPath(new URL('../../openapi/', import.meta.url));
 const read = (path: string) => parse(readFileSync(path, 'utf8')) as Record<string, any>;
 
@@ -73,7 +73,8 @@ describe('OpenAPI areas', () => {
       system: ['getHealth', 'getReadiness', 'getCaller'],
       metering: ['getUsage'],
       products: ['listProducts', 'createProduct', 'getProduct', 'updateProduct', 'archiveProduct'],
-      verdicts: ['submitLot', 'listVerdicts', 'getVerdict', 'exportVerdict', 'recomputeVerdict', 'getSeal', 'verifySeal', 'verifyLedger', 'exportVerdicts', 'getJwks', 'listRulebooks'],
+      verdicts: ['submitLot', 'listVerdicts', 'getVerdict', 'exportVerdict', 'recomputeVerdict', 'getSeal', 'verifySeal', 'exportVerdicts', 'getJwks', 'listRulebooks'],
+      ledger: ['listCheckpoints', 'issueCheckpoint', 'getLatestCheckpoint', 'getCheckpoint', 'getInclusionProof', 'getConsistencyProof', 'verifyLedger', 'startLedgerWalk', 'getLedgerWalk', 'listWitnesses', 'addWitness', 'removeWitness'],
       webhooks: ['listWebhooks', 'createWebhook', 'getWebhook', 'updateWebhook', 'deleteWebhook', 'sendTestWebhook', 'listWebhookDeliveries'],
     };
     for (const [area, ids] of Object.entries(expected)) for (const id of ids) expect(areaOf[id], id).toBe(area);

@@ -1,5 +1,6 @@
 // RFC 9457 problem details as the console shows them: a sentence for the page and one per field.
 import type { components } from '../../../shared/api/schema';
+import { plainFieldMessage } from '../lib/formValidation';
 
 export type Problem = components['schemas']['Problem'];
 
@@ -41,7 +42,9 @@ export function fieldErrors(problem: Problem | null | undefined): Record<string,
   const out: Record<string, string> = {};
   for (const e of problem?.errors ?? []) {
     const key = e.pointer.replace(/^#/, '').replace(/^\/body(?=\/|$)/, '') || '/';
-    out[key] = out[key] ? `${out[key]} ${e.detail}` : e.detail;
+    // The validator's wording ("must NOT have fewer than 3 characters") in the user's words.
+    const text = plainFieldMessage(key, e.detail);
+    out[key] = out[key] ? `${out[key]} ${text}` : text;
   }
   return out;
 }

@@ -24,7 +24,7 @@ export const COLORS = {
   accent: '#b8692e',
   accentFill: 'rgba(184, 105, 46, 0.35)',
   fail: '#a3322a',
-  hold: '#8a6a12',
+  hold: '#7f6210',
   info: '#2d5b8a',
 } as const;
 

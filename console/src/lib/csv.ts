@@ -1,94 +1,86 @@
-// Reading a lot's measurements from a CSV file in the browser (papaparse), before anything is sent.
-// Accepted: a header row naming the measurement column (measurement, gross, net, weight, value or
-// quantity) and optionally a tare column; or a single column of numbers without a header.
-// Decimal commas ("498,2") are read when the file is separated by semicolons.
-import Papa from 'papaparse';
+// Reading a lot's measurements from a CSV file in the browser, before anything is sent: the shared
+// reader (shared/csv/lot-csv.ts), the one the server runs on a text/csv lot, so a file reads the
+// same way in both. A header row names the measurement column (chosen, or found by its name:
+// measurement, gross, net, weight, …; a tare column by "tare"). The delimiter and the decimal
+// separator are found in the file or chosen; an ambiguous file says what to choose.
+import { csvHeader, LotCsvError, readLotCsv, type DecimalMark, type Delimiter } from '../../../shared/csv/lot-csv';
+
+export type { DecimalMark, Delimiter } from '../../../shared/csv/lot-csv';
 
 export interface ParsedMeasurements {
   measurements: number[];
   /** Per-pack tares when the file has a tare column. */
   tares: number[] | null;
-  /** Name of the column read (or "column 1"). */
+  /** Name of the column read. */
   column: string;
-  /** Column names of the header row (empty without one), for choosing another column. */
+  /** Column names of the header row (empty when it could not be read), for choosing another column. */
   headers: string[];
-  /** Whether the first row was a header (so file rows are measurement index + 2). */
+  /** Always true: the reader needs a header row (kept for the preview's row numbers). */
   hasHeader: boolean;
-  /** Problems, each naming the file's row (1-based, counting the header) so the user can find it. */
+  /** The line in the file of each measurement. */
+  lines: number[];
+  /** What separated the columns (null: one column) and the decimal separator (null: no value had one). */
+  delimiter: Delimiter | null;
+  decimal: DecimalMark | null;
+  /** Blank rows skipped: how many, and the lines of the first hundred. */
+  blankLineCount: number;
+  blankLines: number[];
+  /** Why the file cannot be read (one problem, naming its line), empty when it was read. */
   problems: string[];
+  /** What to choose for the file to be read, when it is ambiguous. */
+  choose: { delimiter?: Delimiter[]; decimal?: DecimalMark[] };
 }
 
-const MEASUREMENT_NAMES = ['measurement', 'measurements', 'gross', 'net', 'weight', 'value', 'quantity', 'mass', 'volume'];
-const TARE_NAMES = ['tare', 'tares'];
-
-function toNumber(raw: string, decimalComma: boolean): number | null {
-  let s = raw.trim();
-  if (s === '') return null;
-  if (decimalComma) s = s.replace(',', '.');
-  if (!/^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/.test(s)) return Number.NaN;
-  return Number(s);
+export interface CsvChoices {
+  /** The measurement column; omitted: found by its name. */
+  column?: string;
+  /** Omitted: found in the file. */
+  delimiter?: Delimiter;
+  decimal?: DecimalMark;
 }
 
-/** A header names a measurement column when it is one of the names, alone or with a unit suffix (gross_g, "net (g)"). */
-function isNamed(header: string, names: readonly string[]): boolean {
-  return names.some((n) => header === n || new RegExp(`^${n}[ _(\\[-]`).test(header));
+const EMPTY = { measurements: [], tares: null, column: '', headers: [], hasHeader: true, lines: [], delimiter: null, decimal: null, blankLineCount: 0, blankLines: [], problems: [], choose: {} };
+
+function sentence(text: string): string {
+  return `${text.charAt(0).toUpperCase()}${text.slice(1)}${/[.!?]$/.test(text) ? '' : '.'}`;
 }
 
-export function parseMeasurementsCsv(text: string, opts: { column?: string } = {}): ParsedMeasurements {
-  const result = Papa.parse<string[]>(text.replace(/^\uFEFF/, ''), { skipEmptyLines: 'greedy', delimitersToGuess: [',', ';', '\t', '|'] });
-  const rows = result.data;
-  const problems: string[] = [];
-  const decimalComma = result.meta.delimiter === ';' || result.meta.delimiter === '\t';
-  if (rows.length === 0) return { measurements: [], tares: null, column: 'column 1', hasHeader: false, headers: [], problems: ['The file is empty.'] };
-
-  const header = rows[0]!.map((h) => h.trim().toLowerCase());
-  const headerIsText = header.some((h) => h !== '' && Number.isNaN(Number(h.replace(',', '.'))));
-  let valueCol = 0;
-  let tareCol = -1;
-  let column = 'column 1';
-  let start = 0;
-  if (headerIsText) {
-    start = 1;
-    const chosen = opts.column ? header.indexOf(opts.column.trim().toLowerCase()) : -1;
-    valueCol = chosen >= 0 ? chosen : header.findIndex((h) => isNamed(h, MEASUREMENT_NAMES));
-    tareCol = header.findIndex((h, i) => i !== valueCol && isNamed(h, TARE_NAMES));
-    if (valueCol < 0) {
-      if (header.length === 1) valueCol = 0;
-      else {
-        return {
-          measurements: [],
-          tares: null,
-          column: '',
-          hasHeader: true,
-          headers: rows[0]!.map((h) => h.trim()),
-          problems: [`No measurement column: the header names ${header.map((h) => `"${h}"`).join(', ')}; choose the column below, or name it measurement, gross, net or weight.`],
-        };
-      }
-    }
-    column = rows[0]![valueCol]!.trim() || 'column 1';
+export function parseMeasurementsCsv(input: string | Uint8Array, choices: CsvChoices = {}): ParsedMeasurements {
+  const bytes = typeof input === 'string' ? new TextEncoder().encode(input) : input;
+  try {
+    const lot = readLotCsv(bytes, { column: choices.column || undefined, delimiter: choices.delimiter, decimal: choices.decimal });
+    const parsed: ParsedMeasurements = {
+      ...EMPTY,
+      measurements: Array.from(lot.measurements),
+      tares: lot.tares ? Array.from(lot.tares) : null,
+      column: lot.column,
+      headers: lot.header,
+      lines: Array.from(lot.lines),
+      delimiter: lot.delimiter,
+      decimal: lot.decimal,
+      blankLineCount: lot.blankLineCount,
+      blankLines: lot.blankLines,
+    };
+    if (parsed.measurements.length === 0) parsed.problems = ['The file has a header but no measurements.'];
+    return parsed;
+  } catch (err) {
+    if (!(err instanceof LotCsvError)) throw err;
+    const text = err.line === null ? sentence(err.detail) : `Line ${err.line}: ${err.detail}${/[.!?]$/.test(err.detail) ? '' : '.'}`;
+    return { ...EMPTY, headers: err.header ?? csvHeader(bytes, { delimiter: choices.delimiter }) ?? [], problems: [text], choose: err.choose };
   }
+}
 
-  const measurements: number[] = [];
-  const tares: number[] = [];
-  for (let r = start; r < rows.length; r++) {
-    const row = rows[r]!;
-    const v = toNumber(row[valueCol] ?? '', decimalComma);
-    if (v === null) {
-      problems.push(`Row ${r + 1}: the ${column} cell is empty.`);
-      continue;
-    }
-    if (!Number.isFinite(v)) {
-      problems.push(`Row ${r + 1}: "${(row[valueCol] ?? '').trim()}" is not a number.`);
-      continue;
-    }
-    if (v < 0) problems.push(`Row ${r + 1}: ${v} is negative.`);
-    measurements.push(v);
-    if (tareCol >= 0) {
-      const t = toNumber(row[tareCol] ?? '', decimalComma);
-      if (t === null || !Number.isFinite(t)) problems.push(`Row ${r + 1}: the tare "${(row[tareCol] ?? '').trim()}" is not a number.`);
-      tares.push(t !== null && Number.isFinite(t) ? t : Number.NaN);
-    }
+export const DELIMITER_LABELS: Record<Delimiter, string> = { comma: 'comma', semicolon: 'semicolon', tab: 'tab' };
+export const DECIMAL_LABELS: Record<DecimalMark, string> = { point: 'decimal point', comma: 'decimal comma' };
+
+/** What was read, in words: "3 rows from “net_g” · comma-separated · decimal point · blank lines skipped: 3, 5". */
+export function readingSummary(p: ParsedMeasurements): string {
+  const parts = [`${p.measurements.length} row${p.measurements.length === 1 ? '' : 's'} from “${p.column}”`];
+  parts.push(p.delimiter ? `${DELIMITER_LABELS[p.delimiter]}-separated` : 'one column');
+  if (p.decimal) parts.push(DECIMAL_LABELS[p.decimal]);
+  if (p.blankLineCount > 0) {
+    const more = p.blankLineCount > p.blankLines.length ? ` and ${p.blankLineCount - p.blankLines.length} more` : '';
+    parts.push(`blank line${p.blankLineCount === 1 ? '' : 's'} skipped: ${p.blankLines.join(', ')}${more}`);
   }
-  if (measurements.length === 0 && problems.length === 0) problems.push('The file has a header but no measurements.');
-  return { measurements, tares: tareCol >= 0 ? tares : null, column, hasHeader: headerIsText, headers: headerIsText ? rows[0]!.map((h) => h.trim()) : [], problems };
+  return parts.join(' · ');
 }

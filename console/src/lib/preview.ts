@@ -4,6 +4,7 @@
 import { evaluateLot } from '../../../shared/engine';
 import { toNet } from '../../../shared/engine/net';
 import type { EngineError, LotData, LotInput, ProductSpec, Unit, Verdict } from '../../../shared/engine/types';
+import { checkPlausibility, DEFAULT_PLAUSIBILITY, netValuesOf, type PlausibilityBand } from '../../../shared/plausibility';
 import type { ParsedMeasurements } from './csv';
 
 export interface LotForm {
@@ -15,9 +16,31 @@ export interface LotForm {
   measurementBasis: 'gross' | 'net';
 }
 
+/** A pack outside the product's plausible band: its index, the file's line, and its net quantity in the product's unit. */
+export interface ImplausiblePack {
+  index: number;
+  line: number | null;
+  net: number;
+}
+
+/** The plausibility check as the server makes it (shared/plausibility.ts): the band, and the packs outside it (at most 100 named). */
+export interface PlausibilityPreview {
+  lower: number;
+  upper: number;
+  unit: Unit;
+  count: number;
+  packs: ImplausiblePack[];
+}
+
 export type Preview =
-  | { ok: true; verdict: Verdict; net: number[]; input: LotInput }
+  | { ok: true; verdict: Verdict; net: number[]; input: LotInput; plausibility: PlausibilityPreview }
   | { ok: false; message: string; pointer: string | null };
+
+/** A first sample's lot, which a second sample's preview judges together with it (from the first's sealed record). */
+export interface PreviousSample {
+  product: ProductSpec;
+  lot: LotData;
+}
 
 /** The lot part of the engine's input, from the form and the parsed file. */
 export function lotDataOf(form: LotForm, parsed: ParsedMeasurements, product: ProductSpec, tareSample?: number[]): LotData {
@@ -33,20 +56,52 @@ export function lotDataOf(form: LotForm, parsed: ParsedMeasurements, product: Pr
   return lot;
 }
 
-/** Says an engine error in words, naming the file row when it points at a measurement. */
-export function describeEngineError(error: EngineError, hasHeader: boolean): string {
+/** Says an engine error in words, naming the file's line when it points at a measurement (`lines`: each measurement's line, as the CSV reader gives them). */
+export function describeEngineError(error: EngineError, hasHeader: boolean, lines?: readonly number[]): string {
   const m = /^\/lot\/(measurements|tares)\/(\d+)$/.exec(error.pointer);
+  if (m && lines?.[Number(m[2])] !== undefined) return `Line ${lines[Number(m[2])]} of the file: ${error.message}.`;
   if (m) return `Row ${Number(m[2]) + 1 + (hasHeader ? 1 : 0)} of the file: ${error.message}.`;
   return `${error.message.charAt(0).toUpperCase()}${error.message.slice(1)}.`;
 }
 
-export function previewLot(product: ProductSpec, form: LotForm, parsed: ParsedMeasurements, extra: { tareSample?: number[] } = {}): Preview {
+/** A second sample's input, as the server builds it: the first sample's spec and lot, this sample's values after the first's. */
+function secondSampleInput(first: PreviousSample, parsed: ParsedMeasurements): LotInput {
+  const fl = first.lot;
+  const lot: LotData = {
+    lotSize: fl.lotSize,
+    testing: fl.testing,
+    measurementUnit: fl.measurementUnit,
+    ...(fl.measurementBasis ? { measurementBasis: fl.measurementBasis } : {}),
+    measurements: parsed.measurements,
+    ...(first.product.tareMode === 'per-pack' && parsed.tares ? { tares: parsed.tares } : {}),
+    ...(fl.tareSample ? { tareSample: fl.tareSample } : {}),
+    previousSample: [...(fl.previousSample ?? []), ...fl.measurements],
+    ...(fl.tares ? { previousTares: [...(fl.previousTares ?? []), ...fl.tares] } : {}),
+  };
+  return { product: first.product, lot };
+}
+
+export function previewLot(
+  product: ProductSpec,
+  form: LotForm,
+  parsed: ParsedMeasurements,
+  extra: { tareSample?: number[]; band?: PlausibilityBand; previous?: PreviousSample } = {},
+): Preview {
   if (parsed.problems.length > 0) return { ok: false, message: parsed.problems.join(' '), pointer: null };
-  const input: LotInput = { product, lot: lotDataOf(form, parsed, product, extra.tareSample) };
+  const input: LotInput = extra.previous ? secondSampleInput(extra.previous, parsed) : { product, lot: lotDataOf(form, parsed, product, extra.tareSample) };
   const result = evaluateLot(input);
-  if (!result.ok) return { ok: false, message: describeEngineError(result.error, parsed.hasHeader), pointer: result.error.pointer };
+  if (!result.ok) return { ok: false, message: describeEngineError(result.error, parsed.hasHeader, parsed.lines), pointer: result.error.pointer };
   const net = toNet(input);
-  return { ok: true, verdict: result.verdict, net: net.ok ? Array.from(net.data.net) : [], input };
+  const check = checkPlausibility(input, extra.band ?? DEFAULT_PLAUSIBILITY, false);
+  const values = check ? netValuesOf(input, check.implausiblePacks) : [];
+  const plausibility: PlausibilityPreview = {
+    lower: check?.lower ?? 0,
+    upper: check?.upper ?? 0,
+    unit: input.product.unit,
+    count: check?.implausibleCount ?? 0,
+    packs: (check?.implausiblePacks ?? []).map((index, k) => ({ index, line: parsed.lines?.[index] ?? null, net: values[k]! })),
+  };
+  return { ok: true, verdict: result.verdict, net: net.ok ? Array.from(net.data.net) : [], input, plausibility };
 }
 
 /** The engine's product spec from the API's product (nulls dropped: the engine wants them absent). */

@@ -1,7 +1,8 @@
 // Checking a seal in the browser, so an auditor need not take the server's word for it:
 //  1. the SHA-256 of the record's RFC 8785 canonical form (canonicalize, npm) equals the seal;
 //  2. the Ed25519 signature of the seal's 32 bytes verifies (WebCrypto) against the public key with
-//     the record's key id in /.well-known/jwks.json (RFC 7517, OKP keys per RFC 8037);
+//     the record's key id in /.well-known/jwks.json (RFC 7517, OKP keys per RFC 8037), and the
+//     record's recordedAt lies in that key's validity window [nbf, exp) (RFC 7519 NumericDates);
 //  3. the chain link: the record names the seal of the verdict before it, and that verdict's own
 //     record hashes to that seal.
 import canonicalize from 'canonicalize';
@@ -12,6 +13,9 @@ export interface Jwk {
   x?: string;
   kid?: string;
   alg?: string;
+  /** Validity window, seconds since the epoch: the key signs nothing dated before nbf, or at or after exp. */
+  nbf?: number;
+  exp?: number;
 }
 
 export type CheckState = 'pass' | 'fail' | 'unknown';
@@ -63,11 +67,25 @@ export async function checkHash(record: string | unknown, seal: string): Promise
     : { state: 'fail', computed, detail: 'The SHA-256 of the canonical record, computed in this browser, differs from the seal: the record is not the one that was sealed.' };
 }
 
-export async function checkSignature(seal: string, signature: string, kid: string, jwks: { keys: Jwk[] }): Promise<CheckResult> {
+/** Why a key may not vouch for something dated `recordedAt`, or null when it lies in [nbf, exp). */
+export function keyWindowProblem(jwk: Jwk, recordedAt: unknown): string | null {
+  const at = typeof recordedAt === 'string' ? Date.parse(recordedAt) : NaN;
+  if (Number.isNaN(at)) return 'The record has no recordedAt to check the key’s validity window against.';
+  if (typeof jwk.nbf !== 'number') return `Key ${jwk.kid?.slice(0, 12)}… is published without a validity window (nbf).`;
+  if (at < jwk.nbf * 1000) return `Key ${jwk.kid?.slice(0, 12)}… signs nothing dated before ${new Date(jwk.nbf * 1000).toISOString()}, and this record is dated ${recordedAt}.`;
+  if (typeof jwk.exp === 'number' && at >= jwk.exp * 1000) {
+    return `Key ${jwk.kid?.slice(0, 12)}… signs nothing dated at or after ${new Date(jwk.exp * 1000).toISOString()} (retired or revoked), and this record is dated ${recordedAt}.`;
+  }
+  return null;
+}
+
+export async function checkSignature(seal: string, signature: string, kid: string, jwks: { keys: Jwk[] }, recordedAt: unknown): Promise<CheckResult> {
   const jwk = jwks.keys.find((k) => k.kid === kid);
   if (!jwk || jwk.kty !== 'OKP' || jwk.crv !== 'Ed25519' || !jwk.x) {
     return { state: 'fail', detail: `No Ed25519 key with id ${kid} is published in /.well-known/jwks.json.` };
   }
+  const outside = keyWindowProblem(jwk, recordedAt);
+  if (outside) return { state: 'fail', detail: outside };
   if (!/^[0-9a-f]{64}$/i.test(seal)) return { state: 'fail', detail: 'The seal is not a SHA-256 digest (64 hexadecimal characters).' };
   try {
     const key = await crypto.subtle.importKey('jwk', { kty: 'OKP', crv: 'Ed25519', x: jwk.x }, { name: 'Ed25519' }, false, ['verify']);

@@ -1,7 +1,8 @@
 // Routes, one view each. `meta.roles` says which console roles may open a route (the same roles the
-// API grants the operations behind it); the guard sends everyone else to sign-in or to their home.
+// API grants the operations behind it); a person opens it when any one of their roles is among
+// them; the guard sends everyone else to sign-in or to their home.
 import { createRouter, createWebHistory, type RouteRecordRaw } from 'vue-router';
-import { homeFor, NAV_ITEMS, type Role } from '../lib/navigation';
+import { homeFor, mayOpen, NAV_ITEMS, type Role } from '../lib/navigation';
 import { useSessionStore } from '../stores/session';
 import { onUnauthorised } from '../api/client';
 
@@ -52,8 +53,8 @@ router.beforeEach(async (to) => {
     }
   }
   if (to.meta.public) return true;
-  if (!session.role) return { name: 'sign-in', query: to.fullPath !== '/' ? { next: to.fullPath } : {} };
-  if (to.name === 'home' || !(to.meta.roles ?? []).includes(session.role)) return { name: homeFor(session.role) };
+  if (!session.signedIn) return { name: 'sign-in', query: to.fullPath !== '/' ? { next: to.fullPath } : {} };
+  if (to.name === 'home' || !mayOpen(to.meta.roles ?? [], session.roles)) return { name: homeFor(session.roles) };
   return true;
 });
 

@@ -3,11 +3,14 @@
 // a lost reply returns the same sealed verdict instead of sealing the lot twice.
 import { defineStore } from 'pinia';
 import { upload } from '../api/upload';
-import { idempotencyKey } from '../api/client';
+import { api, call, idempotencyKey } from '../api/client';
 import type { components } from '../../../shared/api/schema';
 
 export type LotSubmission = components['schemas']['LotSubmission'];
 type Verdict = components['schemas']['Verdict'];
+
+/** Verdicts of one product listed for a lot code (the form picks the exact lot code among them). */
+const LOOKUP_LIMIT = 100;
 
 export const useLotsStore = defineStore('lots', () => {
   async function submit(body: LotSubmission, key: string, onProgress: (fraction: number) => void): Promise<Verdict> {
@@ -19,5 +22,10 @@ export const useLotsStore = defineStore('lots', () => {
       onProgress,
     });
   }
-  return { submit, newKey: idempotencyKey };
+  /** The product's verdicts under this lot code, newest first: has the lot been judged before? */
+  async function judgementsOf(productId: string, lotCode: string): Promise<Verdict[]> {
+    const res = await call(api.GET('/v1/verdicts', { params: { query: { productId, lotCode, limit: LOOKUP_LIMIT } } }));
+    return res.items;
+  }
+  return { submit, judgementsOf, newKey: idempotencyKey };
 });

@@ -65,7 +65,7 @@ export const useSealsStore = defineStore('seals', () => {
     const keys = await publicKeys();
     const lookedUp = serverCopy !== undefined ? serverCopy : await lookup(document.seal);
     const hash = await checkHash(document.record, document.seal);
-    const signature = await checkSignature(document.seal, document.signature, document.kid, keys);
+    const signature = await checkSignature(document.seal, document.signature, document.kid, keys, (document.record as { recordedAt?: unknown }).recordedAt);
     const record = document.record as { previousSeal?: unknown };
     const previousSeal = typeof record.previousSeal === 'string' ? record.previousSeal : null;
     let previous: { record: unknown; seal: string } | null = null;

@@ -5,15 +5,23 @@ import { computed, ref } from 'vue';
 import { api, call, onUnauthorised } from '../api/client';
 import { ApiError } from '../api/problem';
 import type { components } from '../../../shared/api/schema';
-import type { Role } from '../lib/navigation';
+import { mayOpen, ROLES, type Role } from '../lib/navigation';
 
 export type SessionInfo = components['schemas']['SessionInfo'];
 
 export const useSessionStore = defineStore('session', () => {
   const me = ref<SessionInfo | null>(null);
   const checked = ref(false);
-  const role = computed<Role | null>(() => me.value?.user.role ?? null);
-  const signedIn = computed(() => role.value !== null);
+  /** Every role the user holds (one or more), in the order of ROLES; empty when signed out. */
+  const roles = computed<Role[]>(() => {
+    const held: readonly Role[] = me.value?.user.roles ?? (me.value ? [me.value.user.role] : []);
+    return ROLES.filter((r) => held.includes(r));
+  });
+  /** The first of the roles (as `role` in the API): for views that name one; decisions use `has`. */
+  const role = computed<Role | null>(() => roles.value[0] ?? null);
+  const signedIn = computed(() => roles.value.length > 0);
+  /** True when the user holds any one of these roles. */
+  const has = (...wanted: Role[]): boolean => mayOpen(wanted, roles.value);
 
   onUnauthorised(() => {
     me.value = null;
@@ -43,5 +51,5 @@ export const useSessionStore = defineStore('session', () => {
     }
   }
 
-  return { me, checked, role, signedIn, load, signIn, signOut };
+  return { me, checked, roles, role, has, signedIn, load, signIn, signOut };
 });

@@ -21,21 +21,21 @@ export const useUsersStore = defineStore('users', () => {
       invitations.value = i.items;
     });
   }
-  async function invite(email: string, role: Role): Promise<void> {
-    const inv = await call(api.POST('/v1/invitations', { body: { email, role } }));
+  async function invite(email: string, roles: Role[]): Promise<void> {
+    const inv = await call(api.POST('/v1/invitations', { body: { email, roles } }));
     invitations.value = [inv, ...invitations.value.filter((x) => !(x.email === inv.email && x.status === 'pending'))];
   }
   async function revokeInvitation(id: string): Promise<void> {
     const inv = await call(api.DELETE('/v1/invitations/{invitationId}', { params: { path: { invitationId: id } } }));
     invitations.value = invitations.value.map((x) => (x.id === id ? inv : x));
   }
-  async function changeRole(id: string, role: Role): Promise<void> {
-    const u = await call(api.PATCH('/v1/users/{userId}', { params: { path: { userId: id } }, body: { role } }));
+  async function changeRoles(id: string, roles: Role[]): Promise<void> {
+    const u = await call(api.PATCH('/v1/users/{userId}', { params: { path: { userId: id } }, body: { roles } }));
     users.value = users.value.map((x) => (x.id === id ? u : x));
   }
   async function remove(id: string): Promise<void> {
     await call(api.DELETE('/v1/users/{userId}', { params: { path: { userId: id } } }));
     users.value = users.value.filter((x) => x.id !== id);
   }
-  return { users, invitations, loading, problem, load, invite, revokeInvitation, changeRole, remove };
+  return { users, invitations, loading, problem, load, invite, revokeInvitation, changeRoles, remove };
 });
