@@ -27,6 +27,8 @@ export const AUDIT_ACTIONS = [
   'webhook.tested',
   'witness.added',
   'witness.removed',
+  'checkpoint.issued',
+  'ledger.walk-started',
   'product.created',
   'product.updated',
   'product.archived',
@@ -53,6 +55,30 @@ async function describeActor(actor: Actor, transaction?: Transaction): Promise<{
     return { actorKind: 'api-key', actorId: p.keyId, actorLabel: actor.label ?? (key ? `${key.name} (lpk_${key.prefix}…)` : '') };
   }
   return { actorKind: actor.kind ?? 'anonymous', actorId: null, actorLabel: actor.label ?? '' };
+}
+
+/**
+ * The same event written through a raw PostgreSQL client, inside a transaction opened on it (the
+ * ledger's checkpoint hooks run on one): who acted is looked up first, outside that transaction.
+ */
+export async function recordAuditOn(
+  conn: { query(text: string, values: unknown[]): Promise<unknown> },
+  organisationId: string,
+  actor: Awaited<ReturnType<typeof describeActor>> & { ip: string | null },
+  action: AuditAction,
+  target: { kind: string; id: string | null } | null,
+  details: Record<string, unknown> = {},
+): Promise<void> {
+  await conn.query(
+    `INSERT INTO audit_events (id, organisation_id, action, actor_kind, actor_id, actor_label, target_kind, target_id, ip, details)
+     VALUES (gen_random_uuid(), $1, $2, $3, $4, $5, $6, $7, $8, $9)`,
+    [organisationId, action, actor.actorKind, actor.actorId, actor.actorLabel, target?.kind ?? null, target?.id ?? null, actor.ip, JSON.stringify(details)],
+  );
+}
+
+/** Who acted, as the audit trail names them (for recordAuditOn). */
+export async function auditActor(actor: Actor): Promise<Awaited<ReturnType<typeof describeActor>> & { ip: string | null }> {
+  return { ...(await describeActor(actor)), ip: actor.ip ?? null };
 }
 
 export async function recordAudit(

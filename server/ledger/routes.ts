@@ -13,6 +13,7 @@ import { idempotent } from '../core/idempotency';
 import { idempotencyClaim, sendStored } from '../http/replies';
 import { addWitness, listWitnesses, removeWitness } from './witnesses';
 import { installWitnessHook } from './witnesses-outbox';
+import { auditActor, recordAudit, recordAuditOn } from '../identity/audit-trail';
 
 const num = (v: unknown): number | undefined => (v === undefined ? undefined : Number(v));
 const str = (v: unknown): string | undefined => (typeof v === 'string' ? v : undefined);
@@ -28,7 +29,12 @@ export function ledgerHandlers(ctx: AppContext): Handlers {
       res.json(await listCheckpoints(sequelize, req.principal!.organisationId, pageOf(req.query as Record<string, unknown>)));
     },
     issueCheckpoint: async (req, res) => {
-      const issued = await issueOnDemand(sequelize, config, req.principal!.organisationId);
+      const organisationId = req.principal!.organisationId;
+      const actor = await auditActor({ principal: req.principal!, ip: req.ip ?? null });
+      // A checkpoint issued on request is in the audit trail, written in the checkpoint's own transaction.
+      const issued = await issueOnDemand(sequelize, config, organisationId, {
+        inTransaction: (conn, c) => recordAuditOn(conn, organisationId, actor, 'checkpoint.issued', null, { treeSize: c.treeSize, rootHash: c.rootHash, kid: c.kid }),
+      });
       if (!issued) throw new NotFound('your ledger is empty: a checkpoint covers at least one verdict');
       if (issued.created) res.setHeader('Location', `/v1/ledger/checkpoints/${issued.checkpoint.treeSize}`);
       res.status(issued.created ? 201 : 200).json(issued.checkpoint);
@@ -59,6 +65,7 @@ export function ledgerHandlers(ctx: AppContext): Handlers {
     },
     startLedgerWalk: async (req, res) => {
       const walk = await startWalk(sequelize, config, logger, req.principal!.organisationId);
+      await recordAudit(req.principal!.organisationId, { principal: req.principal!, ip: req.ip ?? null }, 'ledger.walk-started', { kind: 'ledger-walk', id: walk.id }, { treeSize: walk.treeSize });
       res.setHeader('Location', `/v1/ledger/walks/${walk.id}`);
       res.status(202).json(walk);
     },

@@ -1006,7 +1006,7 @@ export interface components {
             status: "active" | "revoked" | "expired";
         };
         /** @enum {string} */
-        AuditAction: "key.created" | "key.revoked" | "user.invited" | "invitation.revoked" | "invitation.accepted" | "user.role-changed" | "user.removed" | "user.signed-in" | "user.sign-in-failed" | "user.password-reset-requested" | "user.password-reset" | "organisation.created" | "webhook.created" | "webhook.updated" | "webhook.deleted" | "webhook.tested" | "witness.added" | "witness.removed" | "product.created" | "product.updated" | "product.archived";
+        AuditAction: "key.created" | "key.revoked" | "user.invited" | "invitation.revoked" | "invitation.accepted" | "user.role-changed" | "user.removed" | "user.signed-in" | "user.sign-in-failed" | "user.password-reset-requested" | "user.password-reset" | "organisation.created" | "webhook.created" | "webhook.updated" | "webhook.deleted" | "webhook.tested" | "witness.added" | "witness.removed" | "checkpoint.issued" | "ledger.walk-started" | "product.created" | "product.updated" | "product.archived";
         AuditEvent: {
             /** Format: uuid */
             id: string;

@@ -84,6 +84,11 @@ describe('checkpoints and proofs', () => {
     const again = await request(t.app).post('/v1/ledger/checkpoints').set(a.auth);
     expect(again.status).toBe(200);
     expect(again.body.treeSize).toBe(13);
+    // Each checkpoint issued on request is in the audit trail with who asked; the 200 above issued none.
+    const audit = await request(t.app).get('/v1/audit-events').query({ action: 'checkpoint.issued', limit: 50 }).set(a.auth);
+    expect(audit.status, audit.text).toBe(200);
+    expect(audit.body.items.map((e: { details: { treeSize: number } }) => e.details.treeSize).sort((x: number, y: number) => x - y)).toEqual(sizes);
+    expect(audit.body.items[0]).toMatchObject({ actor: { kind: 'api-key' }, target: null, details: { rootHash: expect.stringMatching(/^[0-9a-f]{64}$/) } });
     const latest = await request(t.app).get('/v1/ledger/checkpoints/latest').set(a.auth);
     expect(latest.body).toEqual(again.body);
 
@@ -267,6 +272,8 @@ describe('the range check and walks', () => {
     const broken = await request(t.app).get(`/v1/ledger/walks/${walk.body.id}`).set(d.auth);
     expect(broken.body).toMatchObject({ status: 'finished', checked: 3, intact: false, firstBreak: { sequence: 4 } });
 
+    const walksAudited = await request(t.app).get('/v1/audit-events').query({ action: 'ledger.walk-started' }).set(d.auth);
+    expect(walksAudited.body.items.map((e: { target: { id: string } }) => e.target.id).sort()).toEqual([start.body.id, walk.body.id].sort());
     // Another organisation cannot see the walk.
     expect((await request(t.app).get(`/v1/ledger/walks/${walk.body.id}`).set(c.auth)).status).toBe(404);
   }, 60_000);
