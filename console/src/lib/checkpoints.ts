@@ -9,6 +9,7 @@
 import type { components } from '../../../shared/api/schema';
 import { verifyConsistency, verifyInclusion, hexToBytes } from './merkle';
 import { canonicalText, type CheckResult, type Jwk } from './seal';
+import { formatCount } from './format';
 
 export type Checkpoint = components['schemas']['Checkpoint'];
 export type InclusionProofReply = components['schemas']['InclusionProofReply'];
@@ -69,7 +70,7 @@ export async function checkInclusion(seal: string, reply: InclusionProofReply): 
   }
   const ok = await verifyInclusion(proof.leafIndex, proof.treeSize, hexToBytes(seal), proof.hashes, checkpoint.rootHash);
   return ok
-    ? { state: 'pass', detail: `Verdict #${verdict.sequence} is in the ledger the checkpoint signs: ${proof.hashes.length} hash${proof.hashes.length === 1 ? '' : 'es'} lead from its seal to the root of ${checkpoint.treeSize.toLocaleString()} verdicts, recomputed in this browser.` }
+    ? { state: 'pass', detail: `Verdict #${verdict.sequence} is in the ledger the checkpoint signs: ${proof.hashes.length} hash${proof.hashes.length === 1 ? '' : 'es'} lead from its seal to the root of ${formatCount(checkpoint.treeSize)} verdicts, recomputed in this browser.` }
     : { state: 'fail', detail: 'The proof’s hashes do not lead from this seal to the checkpoint’s root: the checkpoint does not contain this verdict.' };
 }
 
@@ -87,7 +88,7 @@ export type FetchConsistency = (fromSize: number, toSize: number) => Promise<Con
 export async function compareWithKept(latest: Checkpoint, kept: readonly Checkpoint[], fetchProof: FetchConsistency): Promise<KeptComparison[]> {
   const out: KeptComparison[] = [];
   for (const k of kept.filter((x) => x.organisationId === latest.organisationId)) {
-    const size = k.treeSize.toLocaleString();
+    const size = formatCount(k.treeSize);
     if (k.treeSize === latest.treeSize) {
       out.push(k.rootHash === latest.rootHash
         ? { kept: k, state: 'pass', detail: `The same checkpoint as the one kept at ${size} verdicts.` }
@@ -95,7 +96,7 @@ export async function compareWithKept(latest: Checkpoint, kept: readonly Checkpo
       continue;
     }
     if (k.treeSize > latest.treeSize) {
-      out.push({ kept: k, state: 'fail', detail: `A checkpoint of ${size} verdicts was kept, but the latest now covers only ${latest.treeSize.toLocaleString()}: the ledger was cut back.` });
+      out.push({ kept: k, state: 'fail', detail: `A checkpoint of ${size} verdicts was kept, but the latest now covers only ${formatCount(latest.treeSize)}: the ledger was cut back.` });
       continue;
     }
     let proof: ConsistencyProof | 'missing';
