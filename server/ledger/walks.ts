@@ -117,8 +117,20 @@ async function runWalk(sequelize: Sequelize, organisationId: string, id: string,
   const progress = () =>
     sequelize.query('UPDATE ledger_walks SET checked = $2, heartbeat_at = now() WHERE id = $1', { bind: [id, checked] });
 
+  // The next page is read while this one is checked: PostgreSQL hashes and parses it on one core
+  // while Node verifies signatures on the other. A page read that is not awaited (the walk broke
+  // off) has its rejection caught, so it is never unhandled.
+  const read = (from: number) => {
+    const page = chainPage(sequelize, organisationId, from, size, PAGE);
+    page.catch(() => {});
+    return page;
+  };
+  let next: ReturnType<typeof read> | null = read(checker.expected);
   walk: while (checker.expected <= size) {
-    const rows = await chainPage(sequelize, organisationId, checker.expected, size, PAGE);
+    const rows = await (next ?? read(checker.expected));
+    next = null;
+    const last = rows.length > 0 ? Number(rows[rows.length - 1]!.sequence) : 0;
+    if (last > 0 && last < size) next = read(last + 1);
     if (rows.length === 0) {
       firstBreak = { sequence: checker.expected, verdictId: '', reason: `position ${checker.expected} is missing` };
       break;
