@@ -75,7 +75,8 @@ function cpuSeconds(serverPid: number | undefined): { server: number; postgres: 
 
 async function run(url: string, headers: Record<string, string>, body: string | null, title: string, serverPid?: number) {
   const method = body === null ? 'GET' : 'POST';
-  const req = { url, method, headers, ...(body === null ? {} : { body }), connections: CONNECTIONS } as const;
+  // idReplacement: each request's `[<id>]` becomes a fresh id, so each POST is a lot of its own (one lot, one judgement).
+  const req = { url, method, headers, ...(body === null ? {} : { body, idReplacement: true }), connections: CONNECTIONS } as const;
   // warm-up, then the measured run
   await autocannon({ ...req, duration: 2 });
   const c0 = cpuSeconds(serverPid);
@@ -152,7 +153,7 @@ async function main() {
   const api2Child = ONLY.has('api2') ? await startChild('server/bin/start.ts', { ...apiEnv, PORT: String(api2Port), LOTPROOF_PROCESSES: '2' }) : null;
 
   const lot = {
-    sku: 'BENCH-500G', lotCode: 'B-1', line: 'Bench line', lotSize: 2400, testing: 'non-destructive', measurementUnit: 'g', measurementBasis: 'net',
+    sku: 'BENCH-500G', lotCode: 'B-[<id>]', line: 'Bench line', lotSize: 2400, testing: 'non-destructive', measurementUnit: 'g', measurementBasis: 'net',
     measurements: packContents(seededRng(7), 50, 503, 2),
   };
   const body = JSON.stringify(lot);
@@ -193,7 +194,7 @@ async function main() {
   // a fresh cluster create WAL segments and the server compile its big-lot paths.
   for (let i = -1; i < 5; i++) {
     const [ms, res] = await timed(() =>
-      fetch(`http://127.0.0.1:${apiPort}/v1/lots`, { method: 'POST', headers: { 'content-type': 'application/json', authorization: `Bearer ${secret}` }, body: bigBody }).then(async (r) => ({ status: r.status, text: await r.text() })),
+      fetch(`http://127.0.0.1:${apiPort}/v1/lots`, { method: 'POST', headers: { 'content-type': 'application/json', authorization: `Bearer ${secret}` }, body: bigBody.replace('"B-BIG"', `"B-BIG-${i + 2}"`) }).then(async (r) => ({ status: r.status, text: await r.text() })),
     );
     if (res.status !== 201) throw new Error(`1M lot: ${res.status} ${res.text.slice(0, 300)}`);
     if (i >= 0) postTimes.push(ms);
