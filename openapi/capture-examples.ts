@@ -159,6 +159,14 @@ async function captureScenario(app: import('express').Express): Promise<Examples
   const walk = await call('startLedgerWalk', 'post', '/v1/ledger/walks', 'key');
   await new Promise((r) => setTimeout(r, 500));
   await call('getLedgerWalk', 'get', `/v1/ledger/walks/${walk.body.id}`, 'key');
+  // A lot sealed under a mistyped lot code, withdrawn with its reason (a sealed withdrawal record).
+  const typo = await call('submitLot', 'post', '/v1/lots', 'key', {
+    sku: 'FP-OATS-500', lotCode: 'L2-20261203-80', line: 'Line 2', packedAt: '2026-12-03T07:40:00Z', lotSize: 2400, testing: 'non-destructive',
+    measurementUnit: 'g', measurementBasis: 'net', measurements: measurements.map((m) => Math.round((m + 0.5) * 10) / 10), clientReference: 'MES-88419',
+  });
+  await call('withdrawVerdict', 'post', `/v1/verdicts/${typo.body.id}/withdrawal`, 'key', {
+    reason: 'Lot code mistyped at the scale (L2-20261203-80 is L2-20261203-08, already judged); demo.',
+  });
   await call('exportVerdicts', 'get', '/v1/exports/verdicts?format=csv', 'key');
   await call('exportVerdicts', 'get', '/v1/exports/verdicts?format=ndjson', 'key');
   await call('getJwks', 'get', '/.well-known/jwks.json', 'none');

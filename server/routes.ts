@@ -2,6 +2,7 @@
 // document says which area owns each operation (x-lotproof-area); the app refuses to start when an
 // operation has no handler in its area, or an area answers an operation that is not its own.
 import type { AppContext, Handlers } from './http/context';
+import { certificateHandlers } from './certificates/routes';
 import { identityHandlers } from './identity/routes';
 import { ledgerHandlers } from './ledger/routes';
 import { meteringHandlers } from './metering/routes';
@@ -19,6 +20,7 @@ export function handlersByArea(ctx: AppContext): Record<string, Handlers> {
     verdicts: verdictHandlers(ctx),
     ledger: ledgerHandlers(ctx),
     webhooks: webhookHandlers(ctx),
+    certificates: certificateHandlers(ctx),
   };
 }
 

@@ -38,7 +38,7 @@ function typecheck(): Promise<number> {
 }
 
 async function main(): Promise<number> {
-  ensureDebianPackages(['postgresql', 'r-base-core', 'chromium']);
+  ensureDebianPackages(['postgresql', 'r-base-core', 'chromium', 'poppler-utils']);
   // Strict TypeScript over server, shared, tests and console first: a type error fails the run.
   if (!process.env.LOTPROOF_SKIP_TYPECHECK && (await typecheck()) !== 0) {
     console.error('Type check failed (npm run typecheck).');

@@ -11,6 +11,10 @@ import { CompactRange, leafHash, verifyInclusion } from './merkle.mjs';
 
 export const EXPORT_FORMAT = 'lotproof.export/2';
 export const DOCUMENT_FORMAT = 'lotproof.sealed-verdict/1';
+/** A withdrawal of a verdict (FORMAT.md, "Sealed withdrawal document"): a record of the same chain. */
+export const WITHDRAWAL_FORMAT = 'lotproof.sealed-withdrawal/1';
+export const WITHDRAWAL_RECORD_FORMAT = 'lotproof.withdrawal-record/1';
+const DOCUMENT_FORMATS = new Set([DOCUMENT_FORMAT, WITHDRAWAL_FORMAT]);
 const DOCUMENT_MEMBERS = new Set(['format', 'kid', 'record', 'seal', 'signature', 'inclusion']);
 const HEADER_MEMBERS = new Set(['checkpoint', 'complete', 'filter', 'format', 'from', 'organisationId', 'to']);
 const range = (a, b) => (a === b ? `position ${a}` : `positions ${a}–${b}`);
@@ -41,7 +45,7 @@ export function checkDocument(line, keys) {
   const { value: doc, problem } = parseCanonical(line);
   const problems = problem ? [problem] : [];
   if (!isObject(doc)) return { problems: problems.length ? problems : ['not a sealed document object'], doc: null, seq: null, seal: null };
-  if (doc.format !== DOCUMENT_FORMAT) problems.push(`unknown document format ${JSON.stringify(doc.format)}`);
+  if (!DOCUMENT_FORMATS.has(doc.format)) problems.push(`unknown document format ${JSON.stringify(doc.format)}`);
   const extra = Object.keys(doc).filter((k) => !DOCUMENT_MEMBERS.has(k));
   if (extra.length) problems.push(`unexpected member(s) ${extra.join(', ')}`);
   const rec = doc.record;
@@ -61,7 +65,21 @@ export function checkDocument(line, keys) {
   if (sigProblem) problems.push(`the seal signature: ${sigProblem}`);
   if (seq === 1 && rec.previousSeal !== null) problems.push('position 1 names a previous seal');
   if (seq !== null && seq > 1 && !isHash(rec.previousSeal)) problems.push('the record names no previous seal');
+  if (doc.format === WITHDRAWAL_FORMAT) problems.push(...withdrawalProblems(rec, seq));
   return { problems, doc, seq, seal };
+}
+
+/** What a withdrawal record must say on its own: which earlier verdict (id, seal, position) it withdraws, and why. */
+function withdrawalProblems(rec, seq) {
+  const problems = [];
+  if (rec.format !== WITHDRAWAL_RECORD_FORMAT) problems.push(`a withdrawal document whose record is not a ${WITHDRAWAL_RECORD_FORMAT}`);
+  const v = rec.verdict;
+  if (!isObject(v) || typeof v.id !== 'string' || !isHash(v.seal) || !Number.isSafeInteger(v.sequence) || v.sequence < 1) {
+    problems.push('the withdrawal names no verdict (id, seal, sequence)');
+  } else if (seq !== null && v.sequence >= seq) problems.push(`the withdrawal names position ${v.sequence}, not an earlier one`);
+  if (typeof rec.reason !== 'string' || rec.reason.trim() === '') problems.push('the withdrawal gives no reason');
+  if (!isObject(rec.withdrawnBy)) problems.push('the withdrawal does not say who withdrew the verdict');
+  return problems;
 }
 
 /** Seals seen, by position: in-order positions in two growing arrays, the rest in a map. */
@@ -161,7 +179,7 @@ export async function verifyExport(file, opts) {
       return null;
     }
   })();
-  if (isObject(firstValue) && firstValue.format === DOCUMENT_FORMAT) {
+  if (isObject(firstValue) && DOCUMENT_FORMATS.has(firstValue.format)) {
     const second = await it.next();
     lines.close();
     if (!second.done && second.value !== '') {
@@ -215,6 +233,8 @@ export async function verifyExport(file, opts) {
   let prev = null; // { seq, seal } of the previous line
   let ordered = true; // every line so far at exactly the next position
   let tree = null; // compact range of the leaves so far, for roots (complete exports only)
+  const withdrawn = new Map(); // position of a withdrawn verdict → line of its withdrawal
+  let withdrawals = 0;
   const rootsAt = new Map();
   const wanted = new Set([...kept.map((k) => k.cp.treeSize), ...(pinned ? [pinned.treeSize] : [])]);
   let lineNo = 1;
@@ -269,6 +289,16 @@ export async function verifyExport(file, opts) {
         }
         index.append(seq, seal, lineNo);
         maxSeq = seq;
+      }
+      // a withdrawal names a verdict the export holds (by seal), and a verdict is withdrawn once
+      if (doc.format === WITHDRAWAL_FORMAT && isObject(doc.record.verdict) && Number.isSafeInteger(doc.record.verdict.sequence)) {
+        const named = doc.record.verdict;
+        const target = index.find(named.sequence);
+        if (target && target.seal.toString('hex') !== named.seal) problems.push(`the withdrawal names seal ${named.seal} at position ${named.sequence}, but line ${target.line} has ${target.seal.toString('hex')} there`);
+        else if (!target && complete && named.sequence >= header.from) problems.push(`the withdrawn verdict at position ${named.sequence} is not in the export`);
+        if (withdrawn.has(named.sequence)) problems.push(`the verdict at position ${named.sequence} was withdrawn before, on line ${withdrawn.get(named.sequence)}`);
+        else withdrawn.set(named.sequence, lineNo);
+        withdrawals++;
       }
       // links by previous seal, wherever two lines are neighbours in the chain
       if (prev && seq === prev.seq + 1 && doc.record.previousSeal !== prev.seal.toString('hex')) problems.push(`does not link to the seal of position ${prev.seq} on the line before`);
@@ -329,6 +359,7 @@ export async function verifyExport(file, opts) {
   print('');
   print(`organisation  ${header.organisationId}`);
   print(`checkpoint    ${describe(cp)} key ${cp.kid}`);
+  if (withdrawals > 0) print(`withdrawals   ${withdrawals} sealed withdrawal(s) of verdicts, each naming the verdict's seal`);
   if (complete) {
     print(`covered       ${range(header.from, header.to)} of ${cp.treeSize}: ${failures === 0 ? `complete from position ${header.from}${pinned ? ' (after the pinned checkpoint)' : ''}, no gap, duplicate, fork or reordering, each record linked to the one before, the root recomputed from the leaves` : 'claimed by the header, but NOT verified complete and intact (see FAIL above)'}`);
   } else {

@@ -11,10 +11,10 @@ import type { Sequelize } from 'sequelize';
  * fails for a table with the lotproof_append_only() trigger that is missing). A name whose table does
  * not exist (yet) is skipped.
  */
-export const APPEND_ONLY_TABLES: readonly string[] = ['verdicts', 'signing_keys', 'ledger_tree_nodes', 'ledger_checkpoints'];
+export const APPEND_ONLY_TABLES: readonly string[] = ['verdicts', 'signing_keys', 'ledger_tree_nodes', 'ledger_checkpoints', 'verdict_withdrawals'];
 
-/** Tables the app only reads (the migrations' own record). */
-const READ_ONLY_TABLES: readonly string[] = ['schema_migrations'];
+/** Tables the app only reads (the migrations' own record), and the chain's view over verdicts and withdrawals (0206). */
+const READ_ONLY_TABLES: readonly string[] = ['schema_migrations', 'ledger_entries'];
 
 /** The job queue's schema (pg-boss), installed by the owner during migration. */
 export const JOB_SCHEMA = 'pgboss';

@@ -32,6 +32,7 @@ export const AUDIT_ACTIONS = [
   'product.created',
   'product.updated',
   'product.archived',
+  'verdict.withdrawn',
 ] as const;
 export type AuditAction = (typeof AUDIT_ACTIONS)[number];
 

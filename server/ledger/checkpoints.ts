@@ -151,7 +151,7 @@ export async function issueCheckpoint(
 export async function organisationsBehind(sequelize: Sequelize): Promise<string[]> {
   const rows = await sequelize.query<{ organisation_id: string }>(
     `SELECT o.id AS organisation_id FROM organisations o
-     CROSS JOIN LATERAL (SELECT max(sequence) AS head FROM verdicts v WHERE v.organisation_id = o.id) h
+     CROSS JOIN LATERAL (SELECT max(sequence) AS head FROM ledger_entries v WHERE v.organisation_id = o.id) h
      LEFT JOIN LATERAL (SELECT max(tree_size) AS size FROM ledger_checkpoints c WHERE c.organisation_id = o.id) c ON true
      WHERE h.head IS NOT NULL AND h.head > coalesce(c.size, 0)`,
     { type: QueryTypes.SELECT },

@@ -63,7 +63,7 @@ export async function proveInclusion(
     throw new InvalidInput('name the verdict by exactly one of seal and verdictId', [{ field: q.seal === undefined ? '/seal' : '/verdictId', detail: 'give exactly one of seal and verdictId' }]);
   }
   const [row] = await sequelize.query<{ id: string; sequence: string; seal: string }>(
-    `SELECT id, sequence, seal FROM verdicts WHERE organisation_id = $1 AND ${q.seal !== undefined ? 'seal = $2' : 'id = $2'}`,
+    `SELECT id, sequence, seal FROM ledger_entries WHERE organisation_id = $1 AND ${q.seal !== undefined ? 'seal = $2' : 'id = $2'}`,
     { bind: [organisationId, q.seal !== undefined ? q.seal.toLowerCase() : q.verdictId], type: QueryTypes.SELECT },
   );
   if (!row) {

@@ -25,7 +25,7 @@ export interface Break {
 }
 
 /**
- * Records at positions [from, to] in order, `limit` at a time. The record is hashed and read in the
+ * Records (verdicts and withdrawals, ledger_entries) at positions [from, to] in order, `limit` at a time. The record is hashed and read in the
  * database, so a page of large lots never crosses the wire.
  */
 export function chainPage(sequelize: Sequelize, organisationId: string, from: number, to: number, limit: number): Promise<ChainRow[]> {
@@ -34,7 +34,7 @@ export function chainPage(sequelize: Sequelize, organisationId: string, from: nu
             encode(sha256(convert_to(v.record, 'UTF8')), 'hex') AS digest,
             j.doc->>'sequence' AS rec_sequence, j.doc->>'previousSeal' AS rec_previous, j.doc->'organisation'->>'id' AS rec_org,
             j.doc->>'recordedAt' AS recorded_at
-     FROM verdicts v CROSS JOIN LATERAL (SELECT v.record::json AS doc) j
+     FROM ledger_entries v CROSS JOIN LATERAL (SELECT v.record::json AS doc) j
      WHERE v.organisation_id = $1 AND v.sequence >= $2 AND v.sequence <= $3 ORDER BY v.sequence LIMIT $4`,
     { bind: [organisationId, from, to, limit], type: QueryTypes.SELECT },
   );
@@ -42,7 +42,7 @@ export function chainPage(sequelize: Sequelize, organisationId: string, from: nu
 
 /** The seal at one position, or null (the link the first record of a range must make). */
 export async function sealAt(sequelize: Sequelize, organisationId: string, sequence: number): Promise<string | null> {
-  const rows = await sequelize.query<{ seal: string }>('SELECT seal FROM verdicts WHERE organisation_id = $1 AND sequence = $2', {
+  const rows = await sequelize.query<{ seal: string }>('SELECT seal FROM ledger_entries WHERE organisation_id = $1 AND sequence = $2', {
     bind: [organisationId, sequence],
     type: QueryTypes.SELECT,
   });

@@ -26,9 +26,9 @@ export async function builtSize(conn: PgClient, organisationId: string): Promise
   return rows[0] ? Number(rows[0].idx) + 1 : 0;
 }
 
-/** The chain's head position (0 when empty). */
+/** The chain's head position (0 when empty); the chain is its verdicts and withdrawals (ledger_entries, 0206). */
 export async function chainHead(conn: PgClient, organisationId: string): Promise<number> {
-  const rows = await rowsOf<{ head: string | null }>(conn, 'SELECT max(sequence) AS head FROM verdicts WHERE organisation_id = $1', [organisationId]);
+  const rows = await rowsOf<{ head: string | null }>(conn, 'SELECT max(sequence) AS head FROM ledger_entries WHERE organisation_id = $1', [organisationId]);
   return Number(rows[0]?.head ?? 0);
 }
 
@@ -82,7 +82,7 @@ async function extendBatch(conn: PgClient, organisationId: string, target: numbe
     }
     const seals = await rowsOf<{ sequence: string; seal: string }>(
       conn,
-      'SELECT sequence, seal FROM verdicts WHERE organisation_id = $1 AND sequence > $2 AND sequence <= $3 ORDER BY sequence',
+      'SELECT sequence, seal FROM ledger_entries WHERE organisation_id = $1 AND sequence > $2 AND sequence <= $3 ORDER BY sequence',
       [organisationId, from, to],
     );
     const frontier = await readNodes(conn, organisationId, TreeExtender.frontierNodes(from));

@@ -18,6 +18,7 @@ export const PACKAGES = {
   postgresql: { name: 'postgresql', present: hasPostgresServer },
   'r-base-core': { name: 'r-base-core', present: () => existsSync('/usr/bin/Rscript') },
   chromium: { name: 'chromium', present: () => existsSync('/usr/bin/chromium') },
+  'poppler-utils': { name: 'poppler-utils', present: () => existsSync('/usr/bin/pdftotext') && existsSync('/usr/bin/pdftoppm') },
 } satisfies Record<string, DebianPackage>;
 
 export type PackageName = keyof typeof PACKAGES;

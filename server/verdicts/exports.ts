@@ -12,8 +12,8 @@ import { checkpointAt, type Checkpoint } from '../ledger/checkpoints';
 import { ensureCheckpoint } from '../ledger/issue';
 import { inclusionProofs, type InclusionProof } from '../ledger/proofs';
 import { canonicalJson } from './canonical';
-import { filterSql, type VerdictFilter } from './stored-verdicts';
-import { DOCUMENT_FORMAT, sealedDocumentText, type VerdictRow } from './verdict-records';
+import { checkRanges, filterSql, type VerdictFilter } from './stored-verdicts';
+import { sealedDocumentText, sealedWithdrawalText, WITHDRAWAL_COLUMN, type VerdictRow, type WithdrawalRow } from './verdict-records';
 
 export const EXPORT_FORMAT = 'lotproof.export/2';
 
@@ -21,6 +21,7 @@ const CSV_COLUMNS = [
   'sequence', 'verdict_id', 'recorded_at', 'product_sku', 'product_name', 'lot_code', 'line', 'packed_at', 'lot_size', 'testing',
   'measurement_count', 'decision', 'mean', 'standard_deviation', 'unit', 'nominal_quantity', 'rulebook', 'engine_version',
   'first_sample_verdict_id', 'retest_of_verdict_id', 'retest_reason', 'submitted_by', 'seal', 'previous_seal',
+  'withdrawal_id', 'withdrawn_at', 'withdrawal_reason',
 ] as const;
 
 /** Who submitted a verdict, in one CSV field: the user's e-mail, or the key's name and visible prefix. */
@@ -89,11 +90,11 @@ function appliedFilter(filter: VerdictFilter): Record<string, string> | null {
   return Object.keys(applied).length > 0 ? applied : null;
 }
 
-/** The sealed document with its inclusion proof, as canonical JSON ("inclusion" sorts between "format" and "kid"). */
-const DOCUMENT_START = `{"format":${JSON.stringify(DOCUMENT_FORMAT)},`;
+/** The sealed document (a verdict's or a withdrawal's) with its inclusion proof, as canonical JSON ("inclusion" sorts between "format" and "kid"). */
 function withInclusion(documentText: string, proof: InclusionProof): string {
   const inclusion = `"inclusion":{"hashes":${JSON.stringify(proof.hashes)},"leafIndex":${proof.leafIndex},"treeSize":${proof.treeSize}},`;
-  return DOCUMENT_START + inclusion + documentText.slice(DOCUMENT_START.length);
+  const at = documentText.indexOf(',"kid":') + 1; // right after the format member, which comes first
+  return documentText.slice(0, at) + inclusion + documentText.slice(at);
 }
 
 export interface ExportOptions {
@@ -109,6 +110,7 @@ export async function* exportVerdicts(
   filter: VerdictFilter,
   options: ExportOptions = {},
 ): AsyncGenerator<string> {
+  checkRanges(filter);
   const { where, bind } = filterSql(principal.organisationId, filter);
   let after = 0;
   // NDJSON: positions up to the checkpoint the proofs are against, issued first when the chain grew.
@@ -139,11 +141,24 @@ export async function* exportVerdicts(
         ? `id, sequence, recorded_at, product_sku, product_name, lot_code, line, packed_at, lot_size, testing, measurement_count,
            decision, result #> '{statistics,descriptive,mean}' AS mean, result #> '{statistics,descriptive,standardDeviation}' AS standard_deviation,
            product_spec -> 'unit' AS unit, product_spec -> 'nominalQuantity' AS nominal_quantity,
-           rulebook_id, rulebook_version, engine_version, first_sample_verdict_id, retest_of_verdict_id, retest_reason, submitted_by, seal, previous_seal`
+           rulebook_id, rulebook_version, engine_version, first_sample_verdict_id, retest_of_verdict_id, retest_reason, submitted_by, seal, previous_seal,
+           ${WITHDRAWAL_COLUMN}`
         : // a big record is left out here and read in slices below (octet_length reads no record)
           `sequence, seal, signature, kid, CASE WHEN octet_length(record) <= ${RECORD_SLICE_CHARS} THEN record END AS record`;
-    const rows = await sequelize.query<VerdictRow & CsvNumbers>(
-      `SELECT ${cols} FROM verdicts WHERE ${where} AND sequence > $${bind.length + 1} AND sequence <= $${bind.length + 3} ORDER BY sequence LIMIT $${bind.length + 2}`,
+    const [lo, n, hi] = [`$${bind.length + 1}`, `$${bind.length + 2}`, `$${bind.length + 3}`];
+    // NDJSON holds the chain's records in ledger order: the verdicts, and the withdrawals (issue 16) —
+    // all of them in a complete export, those of the verdicts the filter selects in a filtered one.
+    const from =
+      format === 'csv'
+        ? `SELECT ${cols} FROM verdicts WHERE ${where} AND sequence > ${lo} AND sequence <= ${hi}`
+        : appliedFilter(filter) === null
+          ? `SELECT kind, ${cols} FROM ledger_entries WHERE organisation_id = $1 AND sequence > ${lo} AND sequence <= ${hi}`
+          : `SELECT 'verdict' AS kind, ${cols} FROM verdicts WHERE ${where} AND sequence > ${lo} AND sequence <= ${hi}
+             UNION ALL
+             SELECT 'withdrawal' AS kind, ${cols} FROM verdict_withdrawals
+               WHERE organisation_id = $1 AND sequence > ${lo} AND sequence <= ${hi} AND verdict_id IN (SELECT id FROM verdicts WHERE ${where})`;
+    const rows = await sequelize.query<VerdictRow & CsvNumbers & { kind?: string; withdrawal: WithdrawalRow | null }>(
+      `${from} ORDER BY sequence LIMIT ${n}`,
       { bind: [...bind, after, page, upTo], type: QueryTypes.SELECT },
     );
     const proofs = format === 'ndjson' ? await inclusionProofs(sequelize, principal.organisationId, rows.map((r) => Number(r.sequence) - 1), upTo) : [];
@@ -152,19 +167,22 @@ export async function* exportVerdicts(
     for (const [i, r] of rows.entries()) {
       if (format === 'ndjson' && r.record === null) {
         // The document around the record, as sealedDocumentText writes it, and the record between in slices.
+        // (only a verdict's record is ever this big: a withdrawal's is a few hundred bytes)
         const [head, tail] = withInclusion(sealedDocumentText({ seal: r.seal, signature: r.signature, kid: r.kid, record: '\u0000' }), proofs[i]!).split('\u0000');
         yield chunk + head;
         chunk = '';
         for await (const part of recordSlices(sequelize, principal.organisationId, Number(r.sequence))) yield part;
         chunk = tail + '\n';
       } else if (format === 'ndjson') {
-        chunk += withInclusion(sealedDocumentText({ seal: r.seal, signature: r.signature, kid: r.kid, record: r.record! }), proofs[i]!) + '\n';
+        const doc = { seal: r.seal, signature: r.signature, kid: r.kid, record: r.record! };
+        chunk += withInclusion(r.kind === 'withdrawal' ? sealedWithdrawalText(doc) : sealedDocumentText(doc), proofs[i]!) + '\n';
       } else {
         chunk += [
           r.sequence, r.id, r.recorded_at, r.product_sku, r.product_name, r.lot_code, r.line, r.packed_at, r.lot_size, r.testing,
           r.measurement_count, r.decision, r.mean, r.standard_deviation, r.unit, r.nominal_quantity,
           `${r.rulebook_id}@${r.rulebook_version}`, r.engine_version, r.first_sample_verdict_id, r.retest_of_verdict_id, r.retest_reason,
           submitterText(r.submitted_by), r.seal, r.previous_seal,
+          r.withdrawal?.id, r.withdrawal ? new Date(r.withdrawal.recordedAt).toISOString() : null, r.withdrawal?.reason,
         ].map(csvField).join(',') + '\r\n';
       }
       if (chunk.length >= CHUNK_CHARS) {

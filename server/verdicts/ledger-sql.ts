@@ -7,8 +7,8 @@ import type { PgClient } from '../db/raw';
 import type { EndpointSubscription } from './notifications';
 import type { VerdictRow } from './verdict-records';
 
-/** Advisory-lock class of the chains: the lock is (LOCK_CLASS, hashtext(organisation id)). */
-const LOCK_CLASS = 7820;
+/** Advisory-lock class of the chains: the lock is (LOCK_CLASS, hashtext(organisation id)). Withdrawals take it too (withdrawals.ts). */
+export const LOCK_CLASS = 7820;
 const UUID = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i;
 /** Bind parameters one statement may carry (PostgreSQL's limit is 65 535). */
 const MAX_BINDS = 60_000;
@@ -51,7 +51,7 @@ export interface LotHead {
   first_sample_verdict_id: string | null;
 }
 
-/** What the batch reads under the locks: each chain's head, stored replies, taken first samples, the lots' latest judgements, subscribed endpoints. */
+/** What the batch reads under the locks: each chain's head (its last verdict or withdrawal), stored replies, taken first samples, the lots' latest judgements, subscribed endpoints. */
 export interface ReadUnderLock {
   heads: { id: string; sequence: number | null; seal: string | null }[];
   keys: (PriorReply & { organisation_id: string; key: string })[];
@@ -77,7 +77,7 @@ export async function beginAndReadUnderLock(
         SELECT
           (SELECT coalesce(json_agg(json_build_object('id', o.id, 'sequence', v.sequence, 'seal', v.seal)), '[]')
              FROM json_array_elements_text(${lit(orgs)}::json) AS o(id)
-             LEFT JOIN LATERAL (SELECT sequence, seal FROM verdicts WHERE organisation_id = o.id::uuid ORDER BY sequence DESC LIMIT 1) v ON true) AS heads,
+             LEFT JOIN LATERAL (SELECT sequence, seal FROM ledger_entries WHERE organisation_id = o.id::uuid ORDER BY sequence DESC LIMIT 1) v ON true) AS heads,
           ${priorRepliesUnderLock(lit(batch.claims), conn.escapeLiteral(batch.operation))} AS keys,
           (SELECT coalesce(json_agg(first_sample_verdict_id), '[]') FROM verdicts
              WHERE first_sample_verdict_id IN (SELECT x::uuid FROM json_array_elements_text(${lit(batch.firstSampleIds)}::json) x)) AS taken,

@@ -2,10 +2,11 @@
 // an alert e-mail to the product's recipients when the lot is nonconforming. Built inside the
 // ledger transaction (as outbox rows); delivered by the jobs in server/jobs.
 import { randomUUID } from 'node:crypto';
-import type { VerdictView } from './verdict-records';
+import type { VerdictView, WithdrawalRecord, WithdrawalView } from './verdict-records';
 
 // ledger.checkpoint: each new signed checkpoint of the organisation's ledger (server/ledger/witnesses-outbox.ts).
-export const WEBHOOK_EVENTS = ['verdict.created', 'verdict.nonconforming', 'verdict.second-sample-required', 'ledger.checkpoint'] as const;
+// verdict.withdrawn: a verdict was withdrawn by a sealed withdrawal (withdrawals.ts).
+export const WEBHOOK_EVENTS = ['verdict.created', 'verdict.nonconforming', 'verdict.second-sample-required', 'verdict.withdrawn', 'ledger.checkpoint'] as const;
 export type WebhookEventType = (typeof WEBHOOK_EVENTS)[number];
 export const TEST_EVENT = 'webhook.test';
 
@@ -72,4 +73,33 @@ export function alertEmailFor(view: VerdictView, recipients: string[], publicUrl
     view.caution,
   ].join('\n');
   return { recipients, subject: `Lotproof: lot ${view.lot.lotCode} (${view.product.sku}) is nonconforming`, text };
+}
+
+/** The `verdict.withdrawn` deliveries of a withdrawal, one per endpoint that subscribed to it. */
+export function withdrawalDeliveries(
+  record: WithdrawalRecord,
+  view: WithdrawalView,
+  endpoints: EndpointSubscription[],
+  publicUrl: string,
+): { id: string; endpointId: string; eventType: string; payload: string }[] {
+  const type: WebhookEventType = 'verdict.withdrawn';
+  const payload = JSON.stringify({
+    type,
+    timestamp: view.recordedAt,
+    data: {
+      verdictId: record.verdict.id,
+      withdrawalId: view.id,
+      reason: view.reason,
+      withdrawnBy: view.withdrawnBy,
+      verdict: { seal: record.verdict.seal, sequence: record.verdict.sequence, decision: record.verdict.decision },
+      product: record.verdict.product,
+      lot: { lotCode: record.verdict.lotCode },
+      seal: view.seal.value,
+      sequence: view.seal.sequence,
+      url: `${publicUrl}/v1/verdicts/${record.verdict.id}`,
+    },
+  });
+  return endpoints
+    .filter((ep) => ep.organisation_id === record.organisation.id && ep.events.includes(type))
+    .map((ep) => ({ id: randomUUID(), endpointId: ep.id, eventType: type, payload }));
 }

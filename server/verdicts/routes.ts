@@ -1,17 +1,26 @@
 // Lots, verdicts, seals, the ledger, exports, rulebooks and the JWKS. Thin: read the validated
 // request, call one function of the area, send the reply.
 import { listRulebooks } from '../../shared/engine';
+import { createHash } from 'node:crypto';
 import type { AppContext, Handlers } from '../http/context';
-import { pageOf, sendJsonText } from '../http/replies';
+import { idempotencyClaim, pageOf, sendJsonText } from '../http/replies';
+import { failureProblem } from '../http/problem';
+import { Failure } from '../core/errors';
 import { exportOptionsOf, exportVerdicts } from './exports';
 import { submitLotRequest } from './lot-request.http';
 import { exportDocument, lookupSeal, verifyDocument } from './seals';
 import { jwks } from './signing-keys';
 import { getVerdict, isVerdictSort, listVerdicts, recomputeVerdict, type VerdictFilter } from './stored-verdicts';
+import { WITHDRAW_OPERATION, withdrawVerdict } from './withdrawals';
 
 function filterOf(q: Record<string, unknown>): VerdictFilter {
   const s = (k: string) => (typeof q[k] === 'string' ? (q[k] as string) : undefined);
-  return { productId: s('productId'), line: s('line'), decision: s('decision'), lotCode: s('lotCode'), from: s('from'), to: s('to') };
+  const f: VerdictFilter = {
+    productId: s('productId'), line: s('line'), decision: s('decision'), lotCode: s('lotCode'), from: s('from'), to: s('to'),
+    sealedFrom: s('sealedFrom'), sealedTo: s('sealedTo'), packedFrom: s('packedFrom'), packedTo: s('packedTo'), status: s('status'),
+  };
+  // Only the filters given (an export's header names exactly those).
+  return Object.fromEntries(Object.entries(f).filter(([, v]) => v !== undefined)) as VerdictFilter;
 }
 
 export function verdictHandlers(ctx: AppContext): Handlers {
@@ -37,7 +46,24 @@ export function verdictHandlers(ctx: AppContext): Handlers {
       const q = req.query as Record<string, unknown>;
       // The validator has already refused a sort outside the enum (400 naming /query/sort).
       const sort = isVerdictSort(q.sort) ? q.sort : undefined;
-      res.json(await listVerdicts(sequelize, req.principal!, { ...filterOf(q), ...pageOf(q), sort }));
+      res.json(await listVerdicts(sequelize, req.principal!, { ...filterOf(q), ...pageOf(q), sort, counts: q.counts === true || q.counts === 'true' }));
+    },
+    withdrawVerdict: async (req, res) => {
+      const verdictId = String(req.params.verdictId);
+      const claim = idempotencyClaim(req, WITHDRAW_OPERATION);
+      // The key is bound to the body and the verdict it withdraws (the path is not in the body).
+      const bound = claim && { ...claim, requestHash: createHash('sha256').update(`${claim.requestHash}\n${verdictId}`).digest('hex') };
+      const body = req.body as { reason: string };
+      let outcome;
+      try {
+        outcome = await withdrawVerdict(sequelize, config, req.principal!, { verdictId, reason: body.reason }, bound, req.ip ?? null);
+      } catch (err) {
+        // the verdict travels in the path, the reason in the body
+        if (err instanceof Failure) throw failureProblem(err, (x) => ({ pointer: x.field === '/verdictId' ? '/path/verdictId' : `/body${x.field}`, detail: x.detail }));
+        throw err;
+      }
+      if (outcome.status === 201) res.setHeader('Location', `/v1/verdicts/${verdictId}`);
+      sendJsonText(res, outcome.status, outcome.body, outcome.replayed);
     },
     getVerdict: async (req, res) => {
       res.json(await getVerdict(sequelize, req.principal!, String(req.params.verdictId)));
@@ -52,7 +78,13 @@ export function verdictHandlers(ctx: AppContext): Handlers {
       res.json(await recomputeVerdict(sequelize, req.principal!, String(req.params.verdictId)));
     },
     getSeal: async (req, res) => {
-      sendJsonText(res, 200, await lookupSeal(sequelize, req.principal!, String(req.params.seal)));
+      try {
+        sendJsonText(res, 200, await lookupSeal(sequelize, req.principal!, String(req.params.seal)));
+      } catch (err) {
+        // The seal travels in the path: a short seal several verdicts share is named there.
+        if (err instanceof Failure) throw failureProblem(err, (issue) => ({ pointer: `/path${issue.field}`, detail: issue.detail }));
+        throw err;
+      }
     },
     verifySeal: async (req, res) => {
       res.json(await verifyDocument(sequelize, req.principal!, req.body));

@@ -11,14 +11,34 @@ import { VIEW_COLUMNS, verdictView, type VerdictRow, type VerdictView } from './
 
 export interface VerdictFilter {
   productId?: string;
+  /** Part of the packing line's name, any case. */
   line?: string;
   decision?: string;
+  /** Part of the lot code, any case. */
   lotCode?: string;
+  /** Sealed at or after / before (`from` and `to` are the older names of sealedFrom and sealedTo). */
   from?: string;
   to?: string;
+  sealedFrom?: string;
+  sealedTo?: string;
+  /** Packed at or after / before (a verdict without a packing time matches neither). */
+  packedFrom?: string;
+  packedTo?: string;
+  /** Withdrawn verdicts only, or those not withdrawn. */
+  status?: string;
 }
 
-/** SQL conditions and bind values for a filter; `$1` is always the organisation. */
+export const VERDICT_STATUSES = ['withdrawn', 'not-withdrawn'] as const;
+
+/** A LIKE pattern that matches `text` anywhere, its own % _ and \ taken literally (ESCAPE '\'). */
+export function containsPattern(text: string): string {
+  return `%${text.replace(/[\\%_]/g, (c) => `\\${c}`)}%`;
+}
+
+/** Whether the verdict read FROM verdicts (unaliased) is withdrawn: a lookup of its withdrawal, never a flag on the sealed row. */
+const WITHDRAWN = 'EXISTS (SELECT 1 FROM verdict_withdrawals w WHERE w.verdict_id = verdicts.id)';
+
+/** SQL conditions and bind values for a filter, over `verdicts` unaliased; `$1` is always the organisation. */
 export function filterSql(organisationId: string, f: VerdictFilter): { where: string; bind: unknown[] } {
   const bind: unknown[] = [organisationId];
   const conds = ['organisation_id = $1'];
@@ -27,12 +47,65 @@ export function filterSql(organisationId: string, f: VerdictFilter): { where: st
     conds.push(sql.replace('?', `$${bind.length}`));
   };
   if (f.productId) add('product_id = ?', f.productId);
-  if (f.line !== undefined) add('line = ?', f.line);
+  // Partial and case-insensitive (issue 16): ILIKE with the user's wildcards escaped.
+  if (f.line) add("line ILIKE ? ESCAPE '\\'", containsPattern(f.line));
   if (f.decision) add('decision = ?', f.decision);
-  if (f.lotCode) add('lot_code = ?', f.lotCode);
-  if (f.from) add('recorded_at >= ?::timestamptz', f.from);
-  if (f.to) add('recorded_at < ?::timestamptz', f.to);
+  if (f.lotCode) add("lot_code ILIKE ? ESCAPE '\\'", containsPattern(f.lotCode));
+  const sealedFrom = f.sealedFrom ?? f.from;
+  const sealedTo = f.sealedTo ?? f.to;
+  if (sealedFrom) add('recorded_at >= ?::timestamptz', sealedFrom);
+  if (sealedTo) add('recorded_at < ?::timestamptz', sealedTo);
+  if (f.packedFrom) add('packed_at >= ?::timestamptz', f.packedFrom);
+  if (f.packedTo) add('packed_at < ?::timestamptz', f.packedTo);
+  if (f.status === 'withdrawn') conds.push(WITHDRAWN);
+  if (f.status === 'not-withdrawn') conds.push(`NOT ${WITHDRAWN}`);
   return { where: conds.join(' AND '), bind };
+}
+
+/** Both ends of a date range, checked: a range that ends before it starts is a 400 naming its end. */
+export function checkRanges(f: VerdictFilter): void {
+  const pairs: [string | undefined, string | undefined, string][] = [
+    [f.sealedFrom ?? f.from, f.sealedTo ?? f.to, f.sealedTo !== undefined ? '/sealedTo' : '/to'],
+    [f.packedFrom, f.packedTo, '/packedTo'],
+  ];
+  for (const [a, b, field] of pairs) {
+    if (a && b && Date.parse(b) < Date.parse(a)) throw new InvalidInput('a date range ends before it starts', [{ field, detail: 'must not be before the start of the range' }]);
+  }
+}
+
+export interface VerdictCounts {
+  total: number;
+  conforming: number;
+  nonconforming: number;
+  awaitingSecondSample: number;
+  insufficientData: number;
+  withdrawn: number;
+}
+
+/**
+ * The summary of the verdicts a filter selects, in one query: how many are withdrawn, and of the
+ * others how many are conforming, nonconforming, awaiting their second sample (judged
+ * second-sample-required, and no second sample sealed yet) or without enough data. The
+ * withdrawals and second samples of the organisation are looked up as hashed sets (a handful of
+ * rows each), so the cost is one pass over the verdicts the filter selects.
+ */
+export async function countVerdicts(sequelize: Sequelize, principal: Principal, f: VerdictFilter): Promise<VerdictCounts> {
+  const { where, bind } = filterSql(principal.organisationId, f);
+  const [row] = await sequelize.query<Record<keyof VerdictCounts, number>>(
+    `SELECT count(*)::int AS total,
+            count(*) FILTER (WHERE NOT withdrawn AND decision = 'conforming')::int AS conforming,
+            count(*) FILTER (WHERE NOT withdrawn AND decision = 'nonconforming')::int AS nonconforming,
+            count(*) FILTER (WHERE NOT withdrawn AND decision = 'second-sample-required' AND NOT seconded)::int AS "awaitingSecondSample",
+            count(*) FILTER (WHERE NOT withdrawn AND decision = 'insufficient-data')::int AS "insufficientData",
+            count(*) FILTER (WHERE withdrawn)::int AS withdrawn
+     FROM (SELECT decision,
+                  id IN (SELECT w.verdict_id FROM verdict_withdrawals w WHERE w.organisation_id = $1) AS withdrawn,
+                  decision = 'second-sample-required'
+                    AND id IN (SELECT s.first_sample_verdict_id FROM verdicts s WHERE s.organisation_id = $1 AND s.first_sample_verdict_id IS NOT NULL) AS seconded
+           FROM verdicts WHERE ${where}) x`,
+    { bind, type: QueryTypes.SELECT },
+  );
+  return row as VerdictCounts;
 }
 
 /** The orders `listVerdicts` offers (the OpenAPI `sort` enum): a field, `-` for descending. */
@@ -80,8 +153,13 @@ function isTimestampText(t: string): boolean {
 export async function listVerdicts(
   sequelize: Sequelize,
   principal: Principal,
-  f: VerdictFilter & { limit: number; cursor?: string; sort?: VerdictSort },
-): Promise<{ items: VerdictView[]; nextCursor: string | null }> {
+  f: VerdictFilter & { limit: number; cursor?: string; sort?: VerdictSort; counts?: boolean },
+): Promise<{ items: VerdictView[]; nextCursor: string | null; counts?: VerdictCounts }> {
+  checkRanges(f);
+  if (f.counts) {
+    const [page, counts] = await Promise.all([listVerdicts(sequelize, principal, { ...f, counts: false }), countVerdicts(sequelize, principal, f)]);
+    return { ...page, counts };
+  }
   const sort: VerdictSort = f.sort ?? '-recordedAt';
   const desc = sort.startsWith('-');
   const { column, cast, nullable } = SORT_KEYS[desc ? sort.slice(1) : sort]!;

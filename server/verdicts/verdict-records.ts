@@ -10,8 +10,31 @@ import type { Submitter } from './lot-submitter';
 export type VerdictView = components['schemas']['Verdict'];
 export type SealedDocument = components['schemas']['SealedDocument'];
 
+export type WithdrawalView = components['schemas']['Withdrawal'];
+
 export const RECORD_FORMAT = 'lotproof.verdict-record/1';
 export const DOCUMENT_FORMAT = 'lotproof.sealed-verdict/1';
+/** A withdrawal (issue 16) is a record of its own in the same chain, sealed and signed like a verdict's. */
+export const WITHDRAWAL_RECORD_FORMAT = 'lotproof.withdrawal-record/1';
+export const WITHDRAWAL_DOCUMENT_FORMAT = 'lotproof.sealed-withdrawal/1';
+
+/**
+ * The record a withdrawal's seal covers (RFC 8785 canonical JSON, SHA-256): which verdict it
+ * withdraws (by id, seal and position), who withdrew it and why. The verdict's own record and row
+ * never change; a verdict is withdrawn when a withdrawal names it.
+ */
+export interface WithdrawalRecord {
+  format: typeof WITHDRAWAL_RECORD_FORMAT;
+  withdrawalId: string;
+  organisation: { id: string; name: string };
+  sequence: number;
+  previousSeal: string;
+  recordedAt: string;
+  verdict: { id: string; seal: string; sequence: number; lotCode: string; product: { id: string; sku: string }; decision: string };
+  reason: string;
+  /** A console user or an API key, as a verdict's submittedBy names them (never a secret). */
+  withdrawnBy: Submitter;
+}
 
 /** The record a seal covers (RFC 8785 canonical JSON of this object, SHA-256). */
 export interface VerdictRecord {
@@ -121,6 +144,8 @@ export interface VerdictRow {
   /** Read, not stored: the seal of the verdict re-tested, and the verdict that re-tests this one. */
   retest_of_seal?: string | null;
   retested_by?: { verdictId: string; decision: VerdictView['decision']; reason: string } | null;
+  /** Read, not stored: the withdrawal that names this verdict (verdict_withdrawals), if any. */
+  withdrawal?: WithdrawalRow | null;
   decision: VerdictView['decision'];
   result: VerdictView['result'];
   engine_version: string;
@@ -129,13 +154,29 @@ export interface VerdictRow {
   recorded_at: Date | string;
 }
 
+/** A verdict's withdrawal as the views read it (the summary, not the record). */
+export interface WithdrawalRow {
+  id: string;
+  reason: string;
+  withdrawnBy: Submitter;
+  recordedAt: string;
+  seal: string;
+  sequence: number;
+}
+
+/** The withdrawal of the verdict in `verdicts` (unaliased), as JSON, or NULL: a lookup, never a flag on the sealed row. */
+export const WITHDRAWAL_COLUMN = `(SELECT json_build_object('id', w.id, 'reason', w.reason, 'withdrawnBy', w.withdrawn_by,
+     'recordedAt', to_json(w.recorded_at), 'seal', w.seal, 'sequence', w.sequence)
+   FROM verdict_withdrawals w WHERE w.verdict_id = verdicts.id AND w.organisation_id = verdicts.organisation_id) AS withdrawal`;
+
 /** The columns a view needs; read FROM verdicts unaliased (the re-test columns refer to it by name). */
 export const VIEW_COLUMNS = `id, organisation_id, sequence, seal, previous_seal, signature, kid, product_id, product_sku, product_name,
   product_spec, lot_code, line, packed_at, lot_size, testing, measurement_unit, measurement_count, client_reference, source_format,
   first_sample_verdict_id, retest_of_verdict_id, retest_reason, submitted_by, decision, result, engine_version, rulebook_id, rulebook_version, recorded_at,
   (SELECT o.seal FROM verdicts o WHERE o.id = verdicts.retest_of_verdict_id) AS retest_of_seal,
   (SELECT json_build_object('verdictId', r.id, 'decision', r.decision, 'reason', r.retest_reason) FROM verdicts r
-     WHERE r.retest_of_verdict_id = verdicts.id AND r.organisation_id = verdicts.organisation_id) AS retested_by`;
+     WHERE r.retest_of_verdict_id = verdicts.id AND r.organisation_id = verdicts.organisation_id) AS retested_by,
+  ${WITHDRAWAL_COLUMN}`;
 
 function iso(d: Date | string | null): string | null {
   if (d === null) return null;
@@ -162,6 +203,7 @@ export function verdictView(row: VerdictRow): VerdictView {
     retestOf: row.retest_of_verdict_id ? { verdictId: row.retest_of_verdict_id, seal: row.retest_of_seal ?? '', reason: row.retest_reason ?? '' } : null,
     retestedBy: row.retested_by ?? null,
     submittedBy: row.submitted_by ?? null,
+    withdrawal: row.withdrawal ? withdrawalSummary(row.withdrawal) : null,
     result: row.result,
     recordedAt: iso(row.recorded_at)!,
     seal: {
@@ -178,9 +220,45 @@ export function verdictView(row: VerdictRow): VerdictView {
   };
 }
 
+/** A verdict's withdrawal as its view shows it. */
+export function withdrawalSummary(w: WithdrawalRow): NonNullable<VerdictView['withdrawal']> {
+  return { id: w.id, reason: w.reason, withdrawnBy: w.withdrawnBy, recordedAt: iso(w.recordedAt)!, seal: w.seal, sequence: Number(w.sequence) };
+}
+
+/** The reply to a withdrawal: the sealed withdrawal, as the record says it. */
+export function withdrawalView(r: WithdrawalRecord, seal: { value: string; signature: string; kid: string }): WithdrawalView {
+  return {
+    id: r.withdrawalId,
+    verdictId: r.verdict.id,
+    verdictSeal: r.verdict.seal,
+    reason: r.reason,
+    withdrawnBy: r.withdrawnBy,
+    recordedAt: r.recordedAt,
+    seal: {
+      value: seal.value,
+      algorithm: 'SHA-256',
+      canonicalization: 'RFC 8785',
+      signature: seal.signature,
+      signatureAlgorithm: 'Ed25519',
+      kid: seal.kid,
+      sequence: r.sequence,
+      previousSeal: r.previousSeal,
+    },
+  };
+}
+
 /** The exported document: canonical JSON itself, so any changed byte is detectable offline. */
 export function sealedDocumentText(row: Pick<VerdictRow, 'seal' | 'signature' | 'kid'> & { record: string }): string {
   // The record text is already canonical; splice it in rather than re-serialising a large lot.
   // Keys in RFC 8785 order: format, kid, record, seal, signature.
-  return `{"format":${JSON.stringify(DOCUMENT_FORMAT)},"kid":${canonicalJson(row.kid)},"record":${row.record},"seal":${canonicalJson(row.seal)},"signature":${canonicalJson(row.signature)}}`;
+  return sealedText(DOCUMENT_FORMAT, row);
+}
+
+/** A withdrawal's exported document: the same five members, with its own format. */
+export function sealedWithdrawalText(row: Pick<VerdictRow, 'seal' | 'signature' | 'kid'> & { record: string }): string {
+  return sealedText(WITHDRAWAL_DOCUMENT_FORMAT, row);
+}
+
+function sealedText(format: string, row: Pick<VerdictRow, 'seal' | 'signature' | 'kid'> & { record: string }): string {
+  return `{"format":${JSON.stringify(format)},"kid":${canonicalJson(row.kid)},"record":${row.record},"seal":${canonicalJson(row.seal)},"signature":${canonicalJson(row.signature)}}`;
 }

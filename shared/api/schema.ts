@@ -52,6 +52,33 @@ export interface paths {
         patch?: never;
         trace?: never;
     };
+    "/v1/verdicts/{verdictId}/certificate": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                verdictId: components["parameters"]["VerdictId"];
+            };
+            cookie?: never;
+        };
+        /**
+         * A verdict's certificate (PDF, A4)
+         * @description The verdict as a PDF of one or two A4 pages: the release decision per market, each criterion
+         *     with its clause, the figures at the precision of the verdict's quantities, a histogram of the
+         *     net quantities with the limits, the caution, the seal, its Ed25519 signature and key id, the
+         *     checkpoint of your ledger the seal is proven in (with the inclusion proof's size), re-test and
+         *     withdrawal marks, and a QR code to `<public URL>/verify/<seal>`. Fonts are embedded (Inter).
+         *     Reading a certificate is reading the verdict: the same access as `GET /v1/verdicts/{verdictId}`.
+         */
+        get: operations["getVerdictCertificate"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
     "/v1/session": {
         parameters: {
             query?: never;
@@ -728,6 +755,42 @@ export interface paths {
         patch?: never;
         trace?: never;
     };
+    "/v1/verdicts/{verdictId}/withdrawal": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                verdictId: components["parameters"]["VerdictId"];
+            };
+            cookie?: never;
+        };
+        get?: never;
+        put?: never;
+        /**
+         * Withdraw a sealed verdict, with a reason (a sealed withdrawal record in the ledger)
+         * @description Seals a withdrawal record (`lotproof.withdrawal-record/1`) and appends it to your
+         *     organisation's chain: the next position, linked to the seal before it, signed, a leaf of the
+         *     ledger's Merkle tree like a verdict. It names the verdict (id, seal, position), who withdrew
+         *     it (a console user or an API key) and why. The verdict stays as sealed and is shown withdrawn
+         *     everywhere: its `withdrawal`, the list (`status=withdrawn`), exports, the console. A webhook
+         *     event `verdict.withdrawn` goes to the endpoints that subscribed to it, and the audit trail
+         *     records `verdict.withdrawn`.
+         *
+         *     A verdict is withdrawn once: a second withdrawal is a 409 `verdict-already-withdrawn` naming
+         *     the first (`withdrawal: { id, recordedAt, reason, href }`). A verdict of another organisation,
+         *     or none, is a 404. An `Idempotency-Key` makes a retry safe, as for lots (bound to the body and
+         *     the verdict). A refusal stores nothing.
+         *
+         *     **Caution:** withdrawing a verdict does not recall a lot already released; the packer's
+         *     responsible person decides what follows, and local law and the competent authority prevail.
+         */
+        post: operations["withdrawVerdict"];
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
     "/v1/verdicts/{verdictId}/recompute": {
         parameters: {
             query?: never;
@@ -752,7 +815,11 @@ export interface paths {
             query?: never;
             header?: never;
             path: {
-                /** @description The verdict's seal (SHA-256, 64 hex digits) */
+                /**
+                 * @description The verdict's seal (SHA-256, 64 hex digits), or its first 8 to 63 hex digits (a short seal as
+                 *     lists show it), looked for among your organisation's verdicts only. A short seal that several
+                 *     of your verdicts share is a 409 `ambiguous-seal-prefix` saying how many (`candidates`).
+                 */
                 seal: string;
             };
             cookie?: never;
@@ -796,9 +863,12 @@ export interface paths {
          * @description Oldest first. An NDJSON export (`lotproof.export/2`, clients/verifier/FORMAT.md) starts with a
          *     header line naming a signed checkpoint (issued first when the chain has grown since the latest)
          *     and holds only positions up to its tree size; every following line is a sealed document with
-         *     its `inclusion` proof in that checkpoint. Without a filter it is `complete`: exactly positions
+         *     its `inclusion` proof in that checkpoint: the sealed verdicts and the sealed withdrawals
+         *     (`lotproof.sealed-withdrawal/1`), in ledger order. Without a filter it is `complete`: exactly positions
          *     `from`..`to`, from 1, or from right after the checkpoint of tree size `fromSize` the reader
-         *     pinned. With a filter it is `complete: false` and names the filter; each member is still proven.
+         *     pinned. With a filter it is `complete: false` and names the filter; it holds the verdicts the
+         *     filter selects and their withdrawals, each member still proven. A CSV row says whether its
+         *     verdict is withdrawn (`withdrawal_id`, `withdrawn_at`, `withdrawal_reason`).
          */
         get: operations["exportVerdicts"];
         put?: never;
@@ -1006,7 +1076,7 @@ export interface components {
             status: "active" | "revoked" | "expired";
         };
         /** @enum {string} */
-        AuditAction: "key.created" | "key.revoked" | "user.invited" | "invitation.revoked" | "invitation.accepted" | "user.role-changed" | "user.removed" | "user.signed-in" | "user.sign-in-failed" | "user.password-reset-requested" | "user.password-reset" | "organisation.created" | "webhook.created" | "webhook.updated" | "webhook.deleted" | "webhook.tested" | "witness.added" | "witness.removed" | "checkpoint.issued" | "ledger.walk-started" | "product.created" | "product.updated" | "product.archived";
+        AuditAction: "key.created" | "key.revoked" | "user.invited" | "invitation.revoked" | "invitation.accepted" | "user.role-changed" | "user.removed" | "user.signed-in" | "user.sign-in-failed" | "user.password-reset-requested" | "user.password-reset" | "organisation.created" | "webhook.created" | "webhook.updated" | "webhook.deleted" | "webhook.tested" | "witness.added" | "witness.removed" | "checkpoint.issued" | "ledger.walk-started" | "product.created" | "product.updated" | "product.archived" | "verdict.withdrawn";
         AuditEvent: {
             /** Format: uuid */
             id: string;
@@ -1198,8 +1268,11 @@ export interface components {
             })[];
             totals: components["schemas"]["UsageCounts"];
         };
-        /** @enum {string} */
-        Unit: "g" | "kg" | "mg" | "mL" | "cL" | "L" | "oz" | "lb" | "fl oz";
+        /**
+         * @description Mass: g, kg, mg, oz (avoirdupois), lb. Volume: mL, cL, L, fl oz (US), US gal, imp fl oz, imp gal (imperial). count: articles. Exact factors: 1959 yard and pound agreement, NIST SP 811; UK Weights and Measures Act 1985 Sch. 1. Each rulebook allows the units of its market (its `scope.units` in GET /v1/rulebooks).
+         * @enum {string}
+         */
+        Unit: "g" | "kg" | "mg" | "mL" | "cL" | "L" | "oz" | "lb" | "fl oz" | "US gal" | "imp fl oz" | "imp gal" | "count";
         /**
          * @description none (net measured), fixed (one tare for every pack), per-pack (paired tares), sample (mean of a sample of empty packaging)
          * @enum {string}
@@ -1275,25 +1348,35 @@ export interface components {
             items: components["schemas"]["Product"][];
             nextCursor: string | null;
         };
-        /** @enum {string} */
-        Testing: "destructive" | "non-destructive";
-        /** @enum {string} */
-        Decision: "conforming" | "nonconforming" | "second-sample-required" | "insufficient-data";
-        /** @description The rulebook a product is judged by, with the parameters that rulebook takes and no others (each rulebook's `parameters` in GET /v1/rulebooks): `eu-76-211` takes `nonDestructivePlan`, `custom` its own seven, `oiml-r87-2016` none. Every value is bounded, so a choice is a few hundred bytes at most; it is copied into every verdict judged by it. */
-        RulebookChoice: {
-            /** @enum {string} */
-            id: "eu-76-211" | "oiml-r87-2016" | "custom";
-            params?: components["schemas"]["RulebookParams"];
-        } & (unknown & unknown & unknown);
         /**
-         * @description Parameters of the chosen rulebook, as GET /v1/rulebooks lists them: for `eu-76-211` `nonDestructivePlan`, `double` (the Directive's plan, the default) or `single` (the single plan of the UK reference test, SI 2006/659 Schedule 2 para 3.3–3.5); for `custom` its significance level, alternative, hypothesised mean, known standard deviation, limits and smallest sample; `oiml-r87-2016` takes none. A name the chosen rulebook does not take is refused (400); a value of the right type that the rulebook cannot use is a 422.
+         * @description A rulebook: `eu-76-211` (EU Directive 76/211/EEC), `oiml-r87-2016` (OIML R 87), `uk-2006-659` (UK SI 2006/659 Schedule 2), `ca-wm-regs` (Canada C.R.C. c. 1605), `au-ntmr-2009` (Australia NTMR 2009), `nz-wm-regs-1999` (New Zealand Schedule 7A), `cn-jjf-1070` (China JJF 1070), `us-nist-hb133` (NIST Handbook 133), `custom` (the organisation's own rules).
+         * @enum {string}
+         */
+        RulebookId: "eu-76-211" | "oiml-r87-2016" | "uk-2006-659" | "ca-wm-regs" | "au-ntmr-2009" | "nz-wm-regs-1999" | "cn-jjf-1070" | "us-nist-hb133" | "custom";
+        /** @description The rulebook a product is judged by, with the parameters that rulebook takes and no others (each rulebook's `parameters` in GET /v1/rulebooks): `eu-76-211` and `uk-2006-659` take `nonDestructivePlan`, `ca-wm-regs` `articleMass`, `us-nist-hb133` `category`, `mav`, `plan`, `moistureAllowancePercent` and `otherDeclaration`, `custom` its own seven, the others none. Every value is bounded, so a choice is a few hundred bytes at most; it is copied into every verdict judged by it. */
+        RulebookChoice: {
+            id: components["schemas"]["RulebookId"];
+            params?: components["schemas"]["RulebookParams"];
+        } & (unknown & unknown & unknown & unknown & unknown & unknown & unknown & unknown & unknown);
+        /**
+         * @description Parameters of the chosen rulebook, as GET /v1/rulebooks lists them. A name the chosen rulebook does not take is refused (400); a value of the right type that the rulebook cannot use is a 422.
          * @example {
          *       "nonDestructivePlan": "double"
          *     }
          */
         RulebookParams: {
-            /** @description eu-76-211: 'double' (default) or 'single' */
+            /** @description eu-76-211, uk-2006-659: 'double' (default) or 'single' (SI 2006/659 Schedule 2 para 3.3–3.5) */
             nonDestructivePlan?: string;
+            /** @description ca-wm-regs: mass of one article in grams, for a count declaration of more than 100 articles (Sch. II Part XIV) */
+            articleMass?: number;
+            /** @description us-nist-hb133: 'A' (default) or 'B' (USDA-inspected meat and poultry at point of pack) */
+            category?: string;
+            /** @description us-nist-hb133: maximum allowable variation in the declared unit, from your copy of HB 133 Appendix A (the verdict cites your entry) */
+            mav?: number;
+            plan?: components["schemas"]["UsPlanEntry"];
+            /** @description us-nist-hb133: moisture allowance of HB 133 Table 2-3, per cent of the labelled quantity */
+            moistureAllowancePercent?: number;
+            otherDeclaration?: components["schemas"]["OtherDeclaration"];
             /** @description custom: significance level of the mean test, in (0, 1); default 0.05 */
             alpha?: number;
             /** @description custom: 'less' (default), 'greater' or 'two-sided' */
@@ -1313,6 +1396,50 @@ export interface components {
             /** @description at least 0 */
             allowed: number;
         };
+        /** @description us-nist-hb133: the sampling plan from your copy of HB 133 Appendix A (the verdict cites your entry) */
+        UsPlanEntry: {
+            /** @description at least 2 */
+            sampleSize: number;
+            /** @description SCF of the plan, at least 0 */
+            sampleCorrectionFactor: number;
+            /** @description unreasonable minus errors allowed, at least 0 */
+            allowed: number;
+        };
+        /** @description us-nist-hb133: the other quantity of a dual declaration (e.g. 454 g beside 1 lb); the larger is judged */
+        OtherDeclaration: {
+            quantity: number;
+            unit: components["schemas"]["Unit"];
+        };
+        Rulebook: {
+            id: components["schemas"]["RulebookId"];
+            version: string;
+            title: string;
+            /** @description The published text and clauses the rulebook implements */
+            source: string;
+            /** @description The edition of the rule implemented */
+            edition: string;
+            /** @description The market it judges for */
+            market: string;
+            scope: {
+                /** @description The quantities it applies to */
+                description: string;
+                /** @description The units a declaration may be in */
+                units: components["schemas"]["Unit"][];
+            };
+            /** @description Which parts are verified against the text and which are from memory, in a sentence */
+            provenance: string;
+            /** @description The numbers checked against the published text (or a faithful reproduction), each with its source */
+            verified: string[];
+            /** @description The numbers not read in their text: from memory; verify. Every verdict that uses one says so. */
+            fromMemory: string[];
+            parameters: {
+                [key: string]: unknown;
+            }[];
+        };
+        /** @enum {string} */
+        Testing: "destructive" | "non-destructive";
+        /** @enum {string} */
+        Decision: "conforming" | "nonconforming" | "second-sample-required" | "insufficient-data";
         /** @description Give the product by `productId` or `sku`. lotCode, lotSize and testing are required except for a second sample, which takes them from the first. */
         LotSubmission: {
             /** Format: uuid */
@@ -1383,6 +1510,10 @@ export interface components {
                 limit: number;
                 passed: boolean | null;
                 sentence: string;
+                /** @description The rule's source and clause for this criterion (absent in verdicts judged before engine 2.0.0) */
+                clause?: string;
+                /** @description True when a number it uses is from memory, not verified against its text */
+                fromMemory?: boolean;
             }[];
             statistics: {
                 descriptive: {
@@ -1478,6 +1609,11 @@ export interface components {
             };
             /** @description Who submitted the lot; null for verdicts sealed before this was recorded */
             submittedBy: null | components["schemas"]["Submitter"];
+            /**
+             * @description The sealed withdrawal of this verdict, when it was withdrawn (POST /v1/verdicts/{id}/withdrawal):
+             *     the verdict stays as sealed and no longer stands. Null while it stands.
+             */
+            withdrawal: null | components["schemas"]["VerdictWithdrawal"];
             result: components["schemas"]["EngineVerdict"];
             /** Format: date-time */
             recordedAt: string;
@@ -1487,6 +1623,55 @@ export interface components {
         VerdictPage: {
             items: components["schemas"]["Verdict"][];
             nextCursor: string | null;
+            counts?: components["schemas"]["VerdictCounts"];
+        };
+        /**
+         * @description The verdicts the filter in force selects (every page), when asked for with `counts=true`:
+         *     `withdrawn` counts the withdrawn ones; the other members count those not withdrawn, by decision
+         *     (`awaitingSecondSample`: second sample required and none sealed yet, so a first sample whose
+         *     second sample is sealed counts in none of them). `total` counts every verdict selected.
+         */
+        VerdictCounts: {
+            total: number;
+            conforming: number;
+            nonconforming: number;
+            awaitingSecondSample: number;
+            insufficientData: number;
+            withdrawn: number;
+        };
+        WithdrawalRequest: {
+            /** @description Why the verdict is withdrawn (not blank); sealed in the record */
+            reason: string;
+        };
+        /** @description A verdict's withdrawal, as the verdict shows it */
+        VerdictWithdrawal: {
+            /** Format: uuid */
+            id: string;
+            reason: string;
+            withdrawnBy: components["schemas"]["Submitter"];
+            /** Format: date-time */
+            recordedAt: string;
+            /** @description The withdrawal record's seal */
+            seal: string;
+            /** @description The withdrawal's position in your organisation's chain */
+            sequence: number;
+        };
+        /**
+         * @description A sealed withdrawal: the record (`lotproof.withdrawal-record/1`, in NDJSON exports as a
+         *     `lotproof.sealed-withdrawal/1` document) names the verdict by id and seal, who withdrew it and why.
+         */
+        Withdrawal: {
+            /** Format: uuid */
+            id: string;
+            /** Format: uuid */
+            verdictId: string;
+            /** @description The withdrawn verdict's seal */
+            verdictSeal: string;
+            reason: string;
+            withdrawnBy: components["schemas"]["Submitter"];
+            /** Format: date-time */
+            recordedAt: string;
+            seal: components["schemas"]["Seal"];
         };
         /**
          * @description A verdict record with its seal: `seal` = hex SHA-256 of the RFC 8785 canonical JSON of
@@ -1495,7 +1680,7 @@ export interface components {
          */
         SealedDocument: {
             /** @enum {string} */
-            format: "lotproof.sealed-verdict/1";
+            format: "lotproof.sealed-verdict/1" | "lotproof.sealed-withdrawal/1";
             record: {
                 [key: string]: unknown;
             };
@@ -1504,8 +1689,16 @@ export interface components {
             kid: string;
         };
         ChainNeighbour: {
-            /** Format: uuid */
+            /**
+             * Format: uuid
+             * @description The record's id (a withdrawal's, when kind is withdrawal)
+             */
             verdictId: string;
+            /**
+             * @description A verdict, or a withdrawal of one
+             * @enum {string}
+             */
+            kind?: "verdict" | "withdrawal";
             sequence: number;
             seal: string;
         } | null;
@@ -1537,16 +1730,6 @@ export interface components {
             /** @description JSON pointers where the results differ (first 20) */
             differences: string[];
         };
-        Rulebook: {
-            id: string;
-            version: string;
-            title: string;
-            source: string;
-            provenance: string;
-            parameters: {
-                [key: string]: unknown;
-            }[];
-        };
         Jwks: {
             keys: {
                 /** @enum {string} */
@@ -1564,7 +1747,7 @@ export interface components {
             }[];
         };
         /** @enum {string} */
-        WebhookEvent: "verdict.created" | "verdict.nonconforming" | "verdict.second-sample-required" | "ledger.checkpoint";
+        WebhookEvent: "verdict.created" | "verdict.nonconforming" | "verdict.second-sample-required" | "verdict.withdrawn" | "ledger.checkpoint";
         WebhookInput: {
             /** Format: uri */
             url: string;
@@ -1650,16 +1833,32 @@ export interface components {
         VerdictId: string;
         /** @description Only verdicts of this product */
         FilterProductId: string;
-        /** @description Only lots from this packing line */
+        /** @description Only lots from a packing line whose name contains this, in any case (`line 1` finds "Line 1 (demo)"); % and _ are taken literally */
         FilterLine: string;
         /** @description Only verdicts with this decision */
         FilterDecision: components["schemas"]["Decision"];
-        /** @description Only lots with this lot code (exactly as given; case and spaces count) */
+        /** @description Only lots whose lot code contains this, in any case (`l-7` finds `L-7` and `L-70`); % and _ are taken literally */
         FilterLotCode: string;
-        /** @description Only verdicts recorded at or after this time */
+        /**
+         * @deprecated
+         * @description The older name of `sealedFrom` (used when `sealedFrom` is not given)
+         */
         FilterFrom: string;
-        /** @description Only verdicts recorded before this time */
+        /**
+         * @deprecated
+         * @description The older name of `sealedTo` (used when `sealedTo` is not given)
+         */
         FilterTo: string;
+        /** @description Only verdicts sealed (recorded in the ledger) at or after this time */
+        FilterSealedFrom: string;
+        /** @description Only verdicts sealed before this time */
+        FilterSealedTo: string;
+        /** @description Only lots packed at or after this time (lots without a packing time are left out) */
+        FilterPackedFrom: string;
+        /** @description Only lots packed before this time (lots without a packing time are left out) */
+        FilterPackedTo: string;
+        /** @description Only withdrawn verdicts, or only those not withdrawn */
+        FilterStatus: "withdrawn" | "not-withdrawn";
         /**
          * @description Order of the list: a field, ascending, or with a leading `-` descending. Verdicts that
          *     share a value keep ledger order (by sequence, in the same direction); verdicts without a
@@ -1732,6 +1931,32 @@ export interface operations {
                 };
                 content: {
                     "application/json": components["schemas"]["Caller"];
+                };
+            };
+            default: components["responses"]["Problem"];
+        };
+    };
+    getVerdictCertificate: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                verdictId: components["parameters"]["VerdictId"];
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The certificate */
+            200: {
+                headers: {
+                    /** @description attachment; filename="lotproof-certificate-<lot code>-<short seal>.pdf" */
+                    "Content-Disposition"?: string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    /** @example %PDF-1.7 … (a PDF document of one or two A4 pages) */
+                    "application/pdf": string;
                 };
             };
             default: components["responses"]["Problem"];
@@ -2798,7 +3023,7 @@ export interface operations {
         };
         requestBody?: never;
         responses: {
-            /** @description Rulebooks */
+            /** @description Rulebooks, each with its edition, scope, source, and which of its numbers are verified against the text and which are from memory */
             200: {
                 headers: {
                     [name: string]: unknown;
@@ -2908,16 +3133,38 @@ export interface operations {
                 sort?: components["parameters"]["VerdictSort"];
                 /** @description Only verdicts of this product */
                 productId?: components["parameters"]["FilterProductId"];
-                /** @description Only lots from this packing line */
+                /** @description Only lots from a packing line whose name contains this, in any case (`line 1` finds "Line 1 (demo)"); % and _ are taken literally */
                 line?: components["parameters"]["FilterLine"];
                 /** @description Only verdicts with this decision */
                 decision?: components["parameters"]["FilterDecision"];
-                /** @description Only lots with this lot code (exactly as given; case and spaces count) */
+                /** @description Only lots whose lot code contains this, in any case (`l-7` finds `L-7` and `L-70`); % and _ are taken literally */
                 lotCode?: components["parameters"]["FilterLotCode"];
-                /** @description Only verdicts recorded at or after this time */
+                /**
+                 * @deprecated
+                 * @description The older name of `sealedFrom` (used when `sealedFrom` is not given)
+                 */
                 from?: components["parameters"]["FilterFrom"];
-                /** @description Only verdicts recorded before this time */
+                /**
+                 * @deprecated
+                 * @description The older name of `sealedTo` (used when `sealedTo` is not given)
+                 */
                 to?: components["parameters"]["FilterTo"];
+                /** @description Only verdicts sealed (recorded in the ledger) at or after this time */
+                sealedFrom?: components["parameters"]["FilterSealedFrom"];
+                /** @description Only verdicts sealed before this time */
+                sealedTo?: components["parameters"]["FilterSealedTo"];
+                /** @description Only lots packed at or after this time (lots without a packing time are left out) */
+                packedFrom?: components["parameters"]["FilterPackedFrom"];
+                /** @description Only lots packed before this time (lots without a packing time are left out) */
+                packedTo?: components["parameters"]["FilterPackedTo"];
+                /** @description Only withdrawn verdicts, or only those not withdrawn */
+                status?: components["parameters"]["FilterStatus"];
+                /**
+                 * @description With `true`, the page also carries `counts`: how many verdicts the filter in force selects
+                 *     (all pages, not this one), by what they say now — withdrawn, and of the others conforming,
+                 *     nonconforming, awaiting a second sample (none sealed yet) and without enough data.
+                 */
+                counts?: boolean;
             };
             header?: never;
             path?: never;
@@ -2983,6 +3230,39 @@ export interface operations {
             default: components["responses"]["Problem"];
         };
     };
+    withdrawVerdict: {
+        parameters: {
+            query?: never;
+            header?: {
+                /** @description Makes a retry safe; a replay returns the first response byte for byte. */
+                "Idempotency-Key"?: components["parameters"]["IdempotencyKey"];
+            };
+            path: {
+                verdictId: components["parameters"]["VerdictId"];
+            };
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["WithdrawalRequest"];
+            };
+        };
+        responses: {
+            /** @description The sealed withdrawal */
+            201: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Withdrawal"];
+                };
+            };
+            404: components["responses"]["Problem"];
+            409: components["responses"]["Problem"];
+            422: components["responses"]["Problem"];
+            default: components["responses"]["Problem"];
+        };
+    };
     recomputeVerdict: {
         parameters: {
             query?: never;
@@ -3011,7 +3291,11 @@ export interface operations {
             query?: never;
             header?: never;
             path: {
-                /** @description The verdict's seal (SHA-256, 64 hex digits) */
+                /**
+                 * @description The verdict's seal (SHA-256, 64 hex digits), or its first 8 to 63 hex digits (a short seal as
+                 *     lists show it), looked for among your organisation's verdicts only. A short seal that several
+                 *     of your verdicts share is a 409 `ambiguous-seal-prefix` saying how many (`candidates`).
+                 */
                 seal: string;
             };
             cookie?: never;
@@ -3061,16 +3345,32 @@ export interface operations {
                 format: "csv" | "ndjson";
                 /** @description Only verdicts of this product */
                 productId?: components["parameters"]["FilterProductId"];
-                /** @description Only lots from this packing line */
+                /** @description Only lots from a packing line whose name contains this, in any case (`line 1` finds "Line 1 (demo)"); % and _ are taken literally */
                 line?: components["parameters"]["FilterLine"];
                 /** @description Only verdicts with this decision */
                 decision?: components["parameters"]["FilterDecision"];
-                /** @description Only lots with this lot code (exactly as given; case and spaces count) */
+                /** @description Only lots whose lot code contains this, in any case (`l-7` finds `L-7` and `L-70`); % and _ are taken literally */
                 lotCode?: components["parameters"]["FilterLotCode"];
-                /** @description Only verdicts recorded at or after this time */
+                /**
+                 * @deprecated
+                 * @description The older name of `sealedFrom` (used when `sealedFrom` is not given)
+                 */
                 from?: components["parameters"]["FilterFrom"];
-                /** @description Only verdicts recorded before this time */
+                /**
+                 * @deprecated
+                 * @description The older name of `sealedTo` (used when `sealedTo` is not given)
+                 */
                 to?: components["parameters"]["FilterTo"];
+                /** @description Only verdicts sealed (recorded in the ledger) at or after this time */
+                sealedFrom?: components["parameters"]["FilterSealedFrom"];
+                /** @description Only verdicts sealed before this time */
+                sealedTo?: components["parameters"]["FilterSealedTo"];
+                /** @description Only lots packed at or after this time (lots without a packing time are left out) */
+                packedFrom?: components["parameters"]["FilterPackedFrom"];
+                /** @description Only lots packed before this time (lots without a packing time are left out) */
+                packedTo?: components["parameters"]["FilterPackedTo"];
+                /** @description Only withdrawn verdicts, or only those not withdrawn */
+                status?: components["parameters"]["FilterStatus"];
                 /** @description NDJSON only: export the positions after the checkpoint of this tree size (one you pinned) */
                 fromSize?: number;
             };

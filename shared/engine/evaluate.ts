@@ -1,5 +1,7 @@
 /**
- * evaluateLot: product spec and lot measurements in, verdict out. Pure and deterministic: the
+ * evaluateLot: product spec and lot measurements in, verdict out — one market's decision, with its
+ * criteria (each with its clause), warnings and the rulebook's source. A lot shipped to several
+ * markets is judged by calling it once per rulebook with the same lot (see `evaluateLotForMarkets`). Pure and deterministic: the
  * same input always gives the same verdict (no clocks, no randomness), so a stored verdict can be
  * recomputed from its input and the engine version.
  */
@@ -55,6 +57,8 @@ export function evaluateLot(input: LotInput): EngineResult {
     mean: descriptive.mean,
     standardDeviation: sd,
     tareSampleStandardDeviation: converted.data.tareSampleStandardDeviation,
+    tareMean: converted.data.tareMean,
+    tareSampleCount: converted.data.tareSampleCount,
   });
   if ('error' in judged) return { ok: false, error: judged.error };
 
@@ -69,11 +73,14 @@ export function evaluateLot(input: LotInput): EngineResult {
   }
 
   const criteria = judged.criteria.slice();
-  if (judged.meanTestCriterionAt !== undefined) criteria.splice(judged.meanTestCriterionAt, 0, meanTestCriterion(test.value));
+  if (judged.meanTestCriterionAt !== undefined) {
+    criteria.splice(judged.meanTestCriterionAt, 0, meanTestCriterion(test.value, judged.meanTestClause ?? rulebook.info.source));
+  }
 
   const tne = judged.tne;
-  const t1Limit = tne === null ? null : qn - tne.value;
-  const t2Limit = tne === null ? null : qn - 2 * tne.value;
+  const nominal = judged.nominal ?? qn;
+  const t1Limit = tne === null ? null : nominal - tne.value;
+  const t2Limit = tne === null || judged.noT2 ? null : nominal - 2 * tne.value;
   const decision = decide(criteria, judged.insufficient, judged.additionalPacks);
 
   const verdict: Verdict = {
@@ -86,10 +93,10 @@ export function evaluateLot(input: LotInput): EngineResult {
     assumptions: assumptionChecks(net, descriptive, testOpts, { minIndex: described.minIndex, maxIndex: described.maxIndex }),
     net: {
       unit,
-      nominalQuantity: qn,
+      nominalQuantity: nominal,
       tolerableNegativeError: tne === null ? null : tne.value,
       tolerableNegativeErrorBase: tne === null ? null : tne.baseValue,
-      baseUnit: baseUnitOf(unit),
+      baseUnit: tne === null ? baseUnitOf(unit) : tne.baseUnit,
       t1Limit,
       t2Limit,
       count: net.length,
@@ -105,8 +112,21 @@ export function evaluateLot(input: LotInput): EngineResult {
       version: rulebook.info.version,
       title: rulebook.info.title,
       source: rulebook.info.source,
+      edition: rulebook.info.edition,
+      market: rulebook.info.market,
     },
     caution: CAUTION,
   };
   return { ok: true, verdict };
+}
+
+/**
+ * One lot judged under each of several rulebooks (the markets a product ships to): a loop over
+ * `evaluateLot`, the product's spec taken with each rulebook choice in turn. Each entry is that
+ * market's own result — a verdict with its decision, criteria, warnings and sources, or the
+ * engine's refusal — in the order of `choices`. Combining them into an overall decision is the
+ * caller's (the strictest of the decisions).
+ */
+export function evaluateLotForMarkets(input: LotInput, choices: readonly LotInput['product']['rulebook'][]): { rulebook: LotInput['product']['rulebook']; result: EngineResult }[] {
+  return choices.map((rulebook) => ({ rulebook, result: evaluateLot({ product: { ...input.product, rulebook }, lot: input.lot }) }));
 }

@@ -3,8 +3,8 @@
  * and in the browser). The public contract is what this module exports.
  */
 export { ENGINE_VERSION } from './version';
-export { evaluateLot } from './evaluate';
-export { listRulebooks } from './rulebooks/registry';
-export { tolerableNegativeError } from './rulebooks/tne';
+export { evaluateLot, evaluateLotForMarkets } from './evaluate';
+export { evaluateLotAs, KEPT_ENGINE_VERSIONS } from './legacy/kept-engines';
+export { listRulebooks, tolerableNegativeError } from './rulebooks/registry';
 export { UNIT_NAMES } from './units';
 export type * from './types';

@@ -23,6 +23,8 @@ export interface NetData {
   tareMean: number | null;
   /** Standard deviation of the tare sample in the declared unit (sample mode), else null. */
   tareSampleStandardDeviation: number | null;
+  /** Packs in the tare sample (sample mode), else 0. */
+  tareSampleCount: number;
 }
 
 const TARE_MODES: readonly TareMode[] = ['none', 'fixed', 'per-pack', 'sample'];
@@ -244,6 +246,7 @@ export function toNet(input: LotInput): { ok: true; data: NetData } | { ok: fals
       tareApplied: mode,
       tareMean,
       tareSampleStandardDeviation: tareSd,
+      tareSampleCount: mode === 'sample' ? (lot.tareSample as number[]).length : 0,
     },
   };
 }

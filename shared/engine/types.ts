@@ -6,8 +6,11 @@
  * computed deterministically from the input (no clocks, no randomness).
  */
 
-/** Declared or measured unit. Mass: g, kg, mg, oz (avoirdupois), lb. Volume: mL, cL, L, fl oz (US). */
-export type Unit = 'g' | 'kg' | 'mg' | 'mL' | 'cL' | 'L' | 'oz' | 'lb' | 'fl oz';
+/**
+ * Declared or measured unit. Mass: g, kg, mg, oz (avoirdupois), lb. Volume: mL, cL, L, fl oz (US),
+ * US gal, imp fl oz, imp gal (imperial, as Canada declares). count: articles in a pack.
+ */
+export type Unit = 'g' | 'kg' | 'mg' | 'mL' | 'cL' | 'L' | 'oz' | 'lb' | 'fl oz' | 'US gal' | 'imp fl oz' | 'imp gal' | 'count';
 
 /** How the tare (packaging) is taken off the gross measurements. */
 export type TareMode = 'none' | 'fixed' | 'per-pack' | 'sample';
@@ -15,7 +18,16 @@ export type TareMode = 'none' | 'fixed' | 'per-pack' | 'sample';
 /** Alternative hypothesis of a one-sample test, relative to the hypothesised mean. */
 export type Alternative = 'less' | 'greater' | 'two-sided';
 
-export type RulebookId = 'eu-76-211' | 'oiml-r87-2016' | 'custom';
+export type RulebookId =
+  | 'eu-76-211'
+  | 'oiml-r87-2016'
+  | 'uk-2006-659'
+  | 'ca-wm-regs'
+  | 'au-ntmr-2009'
+  | 'nz-wm-regs-1999'
+  | 'cn-jjf-1070'
+  | 'us-nist-hb133'
+  | 'custom';
 
 export type Decision = 'conforming' | 'nonconforming' | 'second-sample-required' | 'insufficient-data';
 
@@ -50,10 +62,39 @@ export interface EuRulebookParams {
   nonDestructivePlan?: 'double' | 'single';
 }
 
+/** Parameters of the `ca-wm-regs` rulebook. */
+export interface CanadaRulebookParams {
+  /** Mass of one article in grams, for a count declaration of more than 100 articles (C.R.C. c. 1605 Sch. II Part XIV). */
+  articleMass?: number;
+}
+
+/** A sampling plan a plant enters from its copy of NIST Handbook 133 (Appendix A). */
+export interface UsPlanEntry {
+  sampleSize: number;
+  /** Sample correction factor (SCF) of the plan. */
+  sampleCorrectionFactor: number;
+  /** Unreasonable minus errors (packages short by more than the MAV) the plan allows. */
+  allowed: number;
+}
+
+/** Parameters of the `us-nist-hb133` rulebook. */
+export interface UsRulebookParams {
+  /** 'A' (default: all packages but USDA-inspected meat and poultry at point of pack) or 'B'. */
+  category?: 'A' | 'B';
+  /** Maximum allowable variation in the declared unit, as the plant reads it in its copy of HB 133 Appendix A. */
+  mav?: number;
+  /** The sampling plan, as the plant reads it in its copy of HB 133 Appendix A. */
+  plan?: UsPlanEntry;
+  /** Moisture allowance of HB 133 Table 2-3, in per cent of the labelled quantity. */
+  moistureAllowancePercent?: number;
+  /** The other quantity of a dual declaration (e.g. 454 g beside 1 lb): the larger is judged. */
+  otherDeclaration?: { quantity: number; unit: Unit };
+}
+
 export interface RulebookChoice {
   id: RulebookId;
   /** The chosen rulebook's parameters (see its `parameters`); others are ignored. */
-  params?: CustomRulebookParams & EuRulebookParams;
+  params?: CustomRulebookParams & EuRulebookParams & CanadaRulebookParams & UsRulebookParams;
 }
 
 export interface ProductSpec {
@@ -107,11 +148,19 @@ export type EngineResult = { ok: true; verdict: Verdict } | { ok: false; error: 
 
 /** One acceptance criterion of the rulebook. `passed` is null while a double sampling plan is undecided or the criterion could not be judged. */
 export interface Criterion {
+  /**
+   * 'mean' the mean (average) requirement; 't1' packs short by more than the TNE (limit of error,
+   * MAV); 't2' packs short by more than twice it; custom: 'lower-limit', 'upper-limit'.
+   */
   id: 'sample-size' | 'mean' | 't1' | 't2' | 'lower-limit' | 'upper-limit';
   observed: number;
   limit: number;
   passed: boolean | null;
   sentence: string;
+  /** The rule's source and clause for this criterion (edition included), e.g. "C.R.C. c. 1605 s. 52(4)(c)". */
+  clause: string;
+  /** Present and true when a number this criterion uses is from memory and not verified against its text. */
+  fromMemory?: true;
 }
 
 export interface DescriptiveStatistics {
@@ -178,9 +227,9 @@ export interface NetQuantities {
   nominalQuantity: number;
   /** Tolerable negative error in the declared unit; null when the rulebook has none (custom). */
   tolerableNegativeError: number | null;
-  /** The same TNE in grams or millilitres as the rule states it. */
+  /** The same TNE in grams, millilitres or articles as the rule states it. */
   tolerableNegativeErrorBase: number | null;
-  baseUnit: 'g' | 'mL';
+  baseUnit: Unit;
   /** T1 = Qn − TNE and T2 = Qn − 2·TNE. */
   t1Limit: number | null;
   t2Limit: number | null;
@@ -207,7 +256,7 @@ export interface Verdict {
   net: NetQuantities;
   warnings: string[];
   engineVersion: string;
-  rulebook: { id: RulebookId; version: string; title: string; source: string };
+  rulebook: { id: RulebookId; version: string; title: string; source: string; edition: string; market: string };
   caution: string;
 }
 
@@ -224,11 +273,21 @@ export interface RulebookInfo {
   version: string;
   title: string;
   source: string;
+  /** The edition of the rule implemented (e.g. "SI 2006/659 as made"). */
+  edition: string;
+  /** The market the rulebook judges for (e.g. "United Kingdom"); "any" for custom and OIML. */
+  market: string;
+  /** What the rulebook applies to: quantities and units. */
+  scope: { description: string; units: Unit[] };
   /** Which parts of the rulebook are from a verified text and which are from memory. */
   provenance: string;
+  /** The numbers checked against the published text (or a faithful reproduction), each with its source. */
+  verified: string[];
+  /** The numbers not read in their text: shipped from memory, labelled so in every verdict that uses them. */
+  fromMemory: string[];
   parameters: RulebookParameterInfo[];
 }
 
 export type TneResult =
-  | { ok: true; value: number; unit: Unit; baseValue: number; baseUnit: 'g' | 'mL'; rule: string }
+  | { ok: true; value: number; unit: Unit; baseValue: number; baseUnit: Unit; rule: string }
   | { ok: false; reason: string };

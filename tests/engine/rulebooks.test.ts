@@ -88,8 +88,10 @@ describe('eu-76-211 decisions (Directive 76/211/EEC Annex I 1.1–1.3, Annex II 
     const mean = v.criteria.find((c) => c.id === 'mean')!;
     expect(v.decision).toBe('nonconforming');
     expect(mean.passed).toBe(false);
-    expect(mean.limit).toBeCloseTo(500 - meanCheckFactor(30) * v.statistics.descriptive.standardDeviation!, 12);
-    expect(mean.sentence).toMatch(/^mean 497 g is below the lower limit 499\.\d+ g = 500 g − 0\.503 × 1\.\d+ g \(n = 30\)$/);
+    // λ = 0.503 as printed for n 30 (Annex II 2.3.3; markets.md §1.4), not the computed 0.503245…
+    expect(mean.limit).toBe(500 - 0.503 * v.statistics.descriptive.standardDeviation!);
+    expect(mean.sentence).toMatch(/^mean 497 g is below the lower limit 499\.\d+ g = 500 g − 0\.503 × 1\.\d+ g \(n = 30; factor as printed in Directive 76\/211\/EEC Annex II 2\.3\.3\)$/);
+    expect(mean.clause).toBe('Directive 76/211/EEC Annex I 1.1, Annex II 2.3');
     expect(v.statistics.meanTest.conclusion).toBe('reject H0');
   });
 
@@ -123,20 +125,25 @@ describe('eu-76-211 decisions (Directive 76/211/EEC Annex I 1.1–1.3, Annex II 
     [20, 1], // 5 % of 20 = 1
     [60, 3], // 5 % of 60 = 3
     [99, 4], // 5 % of 99 = 4.95: 4 may be defective, 5 may not
-  ])('a lot of %d checked in full may have %d defectives, 5 per cent of it (UK SI 2006/659 Sch. 2 para 3.6)', (lotSize, allowed) => {
+  ])('a lot of %d checked in full: the 5 %% rule (%d) is UK law, so eu-76-211 judges only mean ≥ Qn and T2 (markets.md §1.5)', (lotSize, allowed) => {
     // TNE for Qn 500 g is 15 g (Annex I 2.4): T1 = 485 g, T2 = 470 g; 484 g is below T1 only.
-    const lot = (defectives: number) => verdictOf(lotInput({}, { lotSize, measurements: withPacksAt(lotSize, 506, defectives, 484, 3) }));
-    const ok = lot(allowed);
-    expect(ok.criteria.find((c) => c.id === 't1')).toMatchObject({ observed: allowed, passed: true });
-    expect(ok.criteria.find((c) => c.id === 't1')!.sentence).toMatch(/5 % of the lot; UK SI 2006\/659 Sch\. 2 para 3\.6/);
-    expect(lot(allowed + 1).criteria.find((c) => c.id === 't1')).toMatchObject({ observed: allowed + 1, passed: false });
-    expect(lot(allowed + 1).decision).toBe('nonconforming');
+    const lot = (rulebook: 'eu-76-211' | 'uk-2006-659', defectives: number) =>
+      verdictOf(lotInput({ rulebook: { id: rulebook } }, { lotSize, measurements: withPacksAt(lotSize, 506, defectives, 484, 3) }));
+    const eu = lot('eu-76-211', allowed + 1);
+    expect(eu.criteria.map((c) => c.id)).toEqual(['sample-size', 'mean', 't2']); // Directive Annex II 2.1: mean ≥ Qn only
+    expect(eu.decision).toBe('conforming');
+    expect(eu.warnings.join(' ')).toMatch(new RegExp(`${allowed + 1} packs? below T1 = 485 g: the text sets no T1 allowance`));
+    // SI 2006/659 Sch. 2 para 3.6: defectives ≤ 5 % of the lot
+    const ok = lot('uk-2006-659', allowed);
+    expect(ok.criteria.find((c) => c.id === 't1')).toMatchObject({ observed: allowed, passed: true, clause: expect.stringContaining('SI 2006/659 Sch. 2 para 3.6') });
+    expect(lot('uk-2006-659', allowed + 1).decision).toBe('nonconforming');
   });
 
-  it('allows 2.5 % defectives in a lot of 100 or more measured in full (common practice; from memory; verify)', () => {
+  it('allows 2.5 % defectives in a lot of 100 or more measured in full, labelled common practice (markets.md §1.6)', () => {
     const xs = withPacksAt(200, 506, 5, 484, 7);
     const five = verdictOf(lotInput({}, { lotSize: 200, measurements: xs }));
-    expect(five.criteria.find((c) => c.id === 't1')).toMatchObject({ observed: 5, passed: true });
+    expect(five.criteria.find((c) => c.id === 't1')).toMatchObject({ observed: 5, passed: true, clause: expect.stringMatching(/^no legal text: common practice/) });
+    expect(five.criteria.find((c) => c.id === 't1')!.sentence).toMatch(/2\.5 % of the lot; common practice/);
     xs[199] = 484;
     expect(verdictOf(lotInput({}, { lotSize: 200, measurements: xs })).criteria.find((c) => c.id === 't1')!.passed).toBe(false);
   });
@@ -247,8 +254,16 @@ describe('listRulebooks', () => {
     expect(ids).toEqual([
       ['eu-76-211', true, true],
       ['oiml-r87-2016', true, true],
+      ['uk-2006-659', true, true],
+      ['ca-wm-regs', true, true],
+      ['au-ntmr-2009', true, true],
+      ['nz-wm-regs-1999', true, true],
+      ['cn-jjf-1070', true, true],
+      ['us-nist-hb133', true, true],
       ['custom', true, true],
     ]);
-    expect(listRulebooks().find((r) => r.id === 'oiml-r87-2016')!.source).toMatch(/from memory; verify/);
+    // R 87's plan is now read in China's reproduction (markets.md §1.3–1.4, §6): nothing from memory.
+    expect(listRulebooks().find((r) => r.id === 'oiml-r87-2016')!.fromMemory).toEqual([]);
+    expect(listRulebooks().find((r) => r.id === 'us-nist-hb133')!.source).toMatch(/from memory; verify/);
   });
 });

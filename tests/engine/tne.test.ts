@@ -58,16 +58,27 @@ describe('tolerable negative error, Directive 76/211/EEC Annex I 2.4', () => {
     expect(tolerableNegativeError(Number.NaN, 'g').ok).toBe(false);
   });
 
-  // UK government guidance, "Weights and measures: the law — Packaged goods" (gov.uk), TNE table:
-  // "10,000 to 15,000 | n/a | 150" and "more than 15,000 | 1 | n/a", a percentage rounded up to
-  // 0.10 g; packaged goods up to 25 kg. (The R 87:2016 table itself could not be read here.)
-  it('extends above 10 kg only for OIML R 87, as the UK government table does', () => {
-    expect(tne(10000, 'g', 'oiml-r87-2016').baseValue).toBe(150);
-    expect(tne(12000, 'g', 'oiml-r87-2016').baseValue).toBe(150);
-    expect(tne(15000, 'g', 'oiml-r87-2016').baseValue).toBe(150);
-    expect(tne(15001, 'g', 'oiml-r87-2016').baseValue).toBe(150.1); // 150.01 rounded up to 0.1 g
-    expect(tne(20000, 'g', 'oiml-r87-2016').baseValue).toBe(200);
-    expect(tne(25000, 'g', 'oiml-r87-2016').baseValue).toBe(250);
-    expect(tne(12000, 'mL', 'oiml-r87-2016').baseValue).toBe(150);
+  // OIML R 87 as NTMR 2009 reg 4.36(4) note a and JJF 1070 附表3 print it (markets.md §1.1–1.2): above
+  // 1 000 a percentage TNE is rounded up to a whole g or mL; the table runs from 0 g to 50 kg.
+  it.each([
+    [1250, 19], // 18.75 → 19 (markets.md §1.1)
+    [1500, 23], // 22.5 → 23
+    [2500, 38], // 37.5 → 38
+    [8000, 120],
+    [1000, 15], // ≤ 1 000: 0.1 rounding, 15 exactly
+    [3, 0.3], // 0–50 → 9 %: 0.27 → 0.3 (markets.md §1.2)
+    [10000, 150],
+    [12000, 150],
+    [15000, 150],
+    [15001, 151], // 150.01 → 151 (whole g above 1 000)
+    [20000, 200],
+    [50000, 500],
+  ])('OIML R 87: Qn %d g → TNE %d g', (qn, expected) => {
+    expect(tne(qn, 'g', 'oiml-r87-2016').baseValue).toBe(expected);
+  });
+  it('OIML R 87 stops at 50 kg (markets.md §1.2) and the EU table at 10 kg (Annex I 2.4)', () => {
+    expect(tolerableNegativeError(50001, 'g', 'oiml-r87-2016').ok).toBe(false);
+    expect(tolerableNegativeError(12000, 'mL', 'oiml-r87-2016').ok).toBe(true);
+    expect(tolerableNegativeError(12000, 'g', 'eu-76-211').ok).toBe(false);
   });
 });

@@ -9,7 +9,7 @@ import { parse } from 'yaml';
 import { afterEach, describe, expect, it } from 'vitest';
 import { AREA_KEY, HTTP_METHODS, loadApiDocument, operationsOf } from '../../openapi/load';
 
-const AREAS = ['system', 'identity', 'metering', 'products', 'verdicts', 'ledger', 'webhooks'];
+const AREAS = ['system', 'identity', 'metering', 'products', 'verdicts', 'ledger', 'webhooks', 'certificates'];
 const openapiDir = fileURLToPath(new URL('../../openapi/', import.meta.url));
 const read = (path: string) => parse(readFileSync(path, 'utf8')) as Record<string, any>;
 

@@ -7,7 +7,7 @@ import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
 
 const serverDir = fileURLToPath(new URL('../../server/', import.meta.url));
-const AREAS = ['system', 'identity', 'metering', 'products', 'verdicts', 'ledger', 'webhooks'];
+const AREAS = ['system', 'identity', 'metering', 'products', 'verdicts', 'ledger', 'webhooks', 'certificates'];
 const SEAMS = ['core', 'db', 'http', 'platform'];
 
 function filesUnder(dir: string): string[] {

@@ -12,7 +12,8 @@ export type LotMode = 'first' | 'second-sample' | 'retest';
 
 /** The lot's latest judgement, as the form shows it, and what it may be sent as. */
 export interface KnownLot {
-  latest: Pick<Verdict, 'id' | 'decision' | 'recordedAt'> & { lotCode: string };
+  /** The lot's latest verdict (recordedAt null when only a refusal named it). */
+  latest: Pick<Verdict, 'id' | 'decision'> & { recordedAt: string | null; lotCode: string };
   /** Packs the plan asks for in the second sample, when the latest verdict awaits one. */
   secondSamplePacks: number | null;
   offers: LotMode[];
@@ -38,4 +39,17 @@ export function retestReasonProblem(reason: string): string | null {
   if (r.length === 0) return 'Say why the lot is judged again: the reason is sealed with the re-test.';
   if (r.length > 500) return `The reason is ${r.length} characters; at most 500 are kept.`;
   return null;
+}
+
+/**
+ * The known lot a 409 `lot-already-judged` names (`verdict: { id, decision, href }`), for a form
+ * whose own look-up had not found it yet (typed and sent at once, or judged meanwhile elsewhere).
+ */
+export function knownLotFromConflict(problem: { type?: string; verdict?: unknown }, lotCode: string): KnownLot | null {
+  if (!problem.type?.endsWith('/lot-already-judged')) return null;
+  const v = problem.verdict as { id?: unknown; decision?: unknown } | undefined;
+  if (!v || typeof v.id !== 'string' || typeof v.decision !== 'string') return null;
+  const decision = v.decision as Verdict['decision'];
+  const awaiting = decision === 'second-sample-required';
+  return { latest: { id: v.id, decision, recordedAt: null, lotCode }, secondSamplePacks: null, offers: awaiting ? ['second-sample', 'retest'] : ['retest'] };
 }

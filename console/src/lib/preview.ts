@@ -85,12 +85,17 @@ export function previewLot(
   product: ProductSpec,
   form: LotForm,
   parsed: ParsedMeasurements,
-  extra: { tareSample?: number[]; band?: PlausibilityBand; previous?: PreviousSample } = {},
+  extra: { tareSample?: number[]; band?: PlausibilityBand | null; previous?: PreviousSample | null; source?: 'file' | 'grid' } = {},
 ): Preview {
   if (parsed.problems.length > 0) return { ok: false, message: parsed.problems.join(' '), pointer: null };
   const input: LotInput = extra.previous ? secondSampleInput(extra.previous, parsed) : { product, lot: lotDataOf(form, parsed, product, extra.tareSample) };
   const result = evaluateLot(input);
-  if (!result.ok) return { ok: false, message: describeEngineError(result.error, parsed.hasHeader, parsed.lines), pointer: result.error.pointer };
+  if (!result.ok) {
+    // Weights keyed in the grid are packs, not lines of a file.
+    const m = extra.source === 'grid' ? /^\/lot\/(measurements|tares)\/(\d+)$/.exec(result.error.pointer) : null;
+    const message = m ? `Pack ${Number(m[2]) + 1}${m[1] === 'tares' ? ', tare' : ''}: ${result.error.message}.` : describeEngineError(result.error, parsed.hasHeader, parsed.lines);
+    return { ok: false, message, pointer: result.error.pointer };
+  }
   const net = toNet(input);
   const check = checkPlausibility(input, extra.band ?? DEFAULT_PLAUSIBILITY, false);
   const values = check ? netValuesOf(input, check.implausiblePacks) : [];

@@ -5,6 +5,7 @@ import { defineStore } from 'pinia';
 import { upload } from '../api/upload';
 import { api, call, idempotencyKey } from '../api/client';
 import type { components } from '../../../shared/api/schema';
+import type { PreviousSample } from '../lib/preview';
 
 export type LotSubmission = components['schemas']['LotSubmission'];
 type Verdict = components['schemas']['Verdict'];
@@ -27,5 +28,14 @@ export const useLotsStore = defineStore('lots', () => {
     const res = await call(api.GET('/v1/verdicts', { params: { query: { productId, lotCode, limit: LOOKUP_LIMIT } } }));
     return res.items;
   }
-  return { submit, judgementsOf, newKey: idempotencyKey };
+  /** One verdict (to prefill the form from a verdict page). */
+  async function verdict(id: string): Promise<Verdict> {
+    return call(api.GET('/v1/verdicts/{verdictId}', { params: { path: { verdictId: id } } }));
+  }
+  /** A first sample's spec and lot as sealed (its record's input), which its second sample is judged with. */
+  async function sealedInput(id: string): Promise<PreviousSample> {
+    const doc = await call(api.GET('/v1/verdicts/{verdictId}/export', { params: { path: { verdictId: id } } }));
+    return (doc.record as { input: PreviousSample }).input;
+  }
+  return { submit, judgementsOf, verdict, sealedInput, newKey: idempotencyKey };
 });

@@ -28,6 +28,24 @@ export function isSeal(text: string): boolean {
   return SEAL.test(text.trim());
 }
 
+/** What the lookup is asked for: a full seal, or a short one (its first 8–63 hex digits, and maybe its last ones, as lists show it). */
+export interface SealQuery {
+  /** The full seal, or the digits it starts with (lower case). */
+  prefix: string;
+  /** The digits it ends with, when a list's short form ("3f9c0a12bd…e41a07") was pasted. */
+  suffix: string | null;
+}
+
+const SHORT = /^([0-9a-f]{8,63})(?:(?:…|\.\.\.)([0-9a-f]{1,56}))?$/;
+
+/** A seal or short seal from typed or pasted text, or null when it is neither. */
+export function sealQuery(text: string): SealQuery | null {
+  const t = text.trim().toLowerCase();
+  if (SEAL.test(t)) return { prefix: t, suffix: null };
+  const m = SHORT.exec(t);
+  return m ? { prefix: m[1]!, suffix: m[2] ?? null } : null;
+}
+
 /** A sealed document from pasted or dropped text, or a sentence saying why it is not one. */
 export function parseDocument(text: string): SealedDocument | string {
   let value: unknown;
@@ -83,9 +101,11 @@ export const useSealsStore = defineStore('seals', () => {
     return { seal: document.seal, document, lookup: lookedUp, hash, signature, chain, matchesServerCopy };
   }
 
+  /** Checks the verdict a seal or short seal names (a short seal: among this organisation's verdicts; several sharing it is a 409). */
   async function checkSeal(seal: string): Promise<SealReport | null> {
-    const found = await lookup(seal.trim());
-    if (!found) return null;
+    const q = sealQuery(seal) ?? { prefix: seal.trim(), suffix: null };
+    const found = await lookup(q.prefix);
+    if (!found || (q.suffix && !found.document.seal.endsWith(q.suffix))) return null;
     return check(found.document, found);
   }
 

@@ -1,4 +1,4 @@
-/** Criterion builders shared by the rulebooks, with the sentences a quality engineer reads. */
+/** Criterion builders shared by the rulebooks, with the sentences a quality engineer reads. Each criterion carries its clause. */
 import type { Criterion, MeanTestResult, Unit } from '../types';
 import { formatNumber, formatPValue, formatQuantity } from '../format';
 import { studentTQuantile } from '../distributions/studentT';
@@ -6,10 +6,26 @@ import { studentTQuantile } from '../distributions/studentT';
 /**
  * λ = t(0.995; n − 1)/√n, the factor of the mean check x̄ ≥ Qn − λ·s (Directive 76/211/EEC
  * Annex II, 2.3; the one-sided t test of H0: μ = Qn against H1: μ < Qn at α = 0.005).
- * Annex II 2.3.3 prints 0.503 (n = 30), 0.379 (n = 50) and 0.640 (n = 20).
+ * Annex II 2.3.3 prints 0.503 (n = 30), 0.379 (n = 50) and 0.640 (n = 20); where a rulebook's text
+ * prints λ for n, the rulebook uses the printed value instead (see `meanFactor`).
  */
 export function meanCheckFactor(n: number): number {
   return studentTQuantile(0.995, n - 1) / Math.sqrt(n);
+}
+
+/** A factor of a mean criterion with how it was found: printed in the text, or computed (or interpolated) where nothing is printed. */
+export interface MeanFactor {
+  value: number;
+  how: 'printed' | 'computed' | 'interpolated';
+  /** Where the printed value is printed, or how it was computed. */
+  source: string;
+}
+
+/** The printed λ for n when `printed` lists it, else t(0.995; n − 1)/√n computed. */
+export function meanFactor(n: number, printed: Readonly<Record<number, number>>, printedIn: string): MeanFactor {
+  const p = printed[n];
+  if (p !== undefined) return { value: p, how: 'printed', source: printedIn };
+  return { value: meanCheckFactor(n), how: 'computed', source: `t(0.995; ${n - 1})/√${n} computed: the text prints no factor for n = ${n}` };
 }
 
 /** Counts net values strictly below a limit, keeping the first `keep` indices. */
@@ -60,11 +76,24 @@ export function countAbove(x: Float64Array, limit: number): number {
   return count;
 }
 
+function memo(fromMemory: boolean | undefined): { fromMemory?: true } {
+  return fromMemory ? { fromMemory: true } : {};
+}
+
 /**
- * The mean check. With `factor` null (every pack of the lot measured) the lot mean is known and
- * the check is the plain x̄ ≥ Qn (Directive 76/211/EEC Annex I, 1.1).
+ * The mean check x̄ ≥ Qn − λ·s. With `factor` null (every pack of the lot measured) the lot mean
+ * is known and the check is the plain x̄ ≥ Qn (Directive 76/211/EEC Annex I, 1.1).
  */
-export function meanCriterion(mean: number, sd: number, n: number, qn: number, factor: number | null, unit: Unit): Criterion {
+export function meanCriterion(
+  mean: number,
+  sd: number,
+  n: number,
+  qn: number,
+  factor: MeanFactor | null,
+  unit: Unit,
+  clause: string,
+  fromMemory?: boolean,
+): Criterion {
   const q = (v: number) => formatQuantity(v, unit);
   if (factor === null) {
     const passed = mean >= qn;
@@ -74,9 +103,11 @@ export function meanCriterion(mean: number, sd: number, n: number, qn: number, f
       limit: qn,
       passed,
       sentence: `mean ${q(mean)} of all ${n} packs in the lot is ${passed ? 'at or above' : 'below'} the nominal quantity ${q(qn)}`,
+      clause,
+      ...memo(fromMemory),
     };
   }
-  const limit = qn - factor * sd;
+  const limit = qn - factor.value * sd;
   const passed = mean >= limit;
   return {
     id: 'mean',
@@ -85,7 +116,9 @@ export function meanCriterion(mean: number, sd: number, n: number, qn: number, f
     passed,
     sentence:
       `mean ${q(mean)} is ${passed ? 'at or above' : 'below'} the lower limit ${q(limit)} = ` +
-      `${q(qn)} \u2212 ${formatNumber(factor, 3)} × ${q(sd)} (n = ${n})`,
+      `${q(qn)} \u2212 ${formatNumber(factor.value, 4)} × ${q(sd)} (n = ${n}; factor ${factor.how === 'printed' ? `as printed in ${factor.source}` : factor.source})`,
+    clause,
+    ...memo(fromMemory),
   };
 }
 
@@ -94,7 +127,7 @@ export function meanCriterion(mean: number, sd: number, n: number, qn: number, f
  * the lot fails it when the test rejects H0, i.e. when p ≤ α. A rulebook asks for it with
  * `meanTestCriterionAt` in its judgement, and the evaluator builds it once the test has run.
  */
-export function meanTestCriterion(t: MeanTestResult): Criterion {
+export function meanTestCriterion(t: MeanTestResult, clause: string): Criterion {
   const passed = t.conclusion === 'fail to reject H0';
   return {
     id: 'mean',
@@ -102,22 +135,50 @@ export function meanTestCriterion(t: MeanTestResult): Criterion {
     limit: t.alpha,
     passed,
     sentence: `${t.method} test p = ${formatPValue(t.pValue)} ${passed ? '>' : '≤'} α = ${formatNumber(t.alpha)}: ${t.conclusion} (${t.alternative} alternative, μ₀ = ${formatNumber(t.hypothesisedMean)})`,
+    clause,
   };
 }
 
 /**
- * The warning on a tare sample whose spread is large against the TNE, or none; `tareSd` is the tare
- * sample's standard deviation and `tne` the TNE, both in the declared unit (`tareSd` null without a
- * tare sample of two or more). Given by every rulebook with a TNE (the custom rulebook has none).
+ * A rule on the spread of a tare sample when an average tare is used: a warning when the tare
+ * sample's standard deviation exceeds `factor` × TNE, applied only under the rule's conditions.
  */
-export function tareSpreadWarnings(tareSd: number | null, tne: number, unit: Unit): string[] {
-  // Tare-sample spread against TNE: above 0.25 × TNE an average tare is not used but every pack's tare
-  // is weighed — the limit of Brazil's INMETRO Portaria nº 248 of 17 July 2008 (for packaging over 5 %
-  // of Qn; read as quoted by a secondary page, not from the Portaria's own text); other authorities
-  // may set their own.
-  if (tareSd === null || !(tareSd > 0.25 * tne)) return [];
+export interface TareSpreadRule {
+  factor: number;
+  /** The rule applies only when the mean tare exceeds this fraction of Qn. */
+  minPackagingFraction: number;
+  /** The rule applies only to a tare sample of at least this many packs. */
+  minTareSample: number;
+  /** Whose rule it is, and whether it binds in the rulebook's market. */
+  source: string;
+}
+
+/**
+ * Brazil's rule (INMETRO Portaria nº 248 of 17 July 2008, as quoted by a secondary page, not read in
+ * the Portaria's own text): an average tare is not used when the spread of a 25-pack tare sample
+ * exceeds 0.25 × TNE and the packaging exceeds 5 % of the nominal content. No rulebook shipped here
+ * is Brazil's: those that carry it give it as advice (markets.md §1.8).
+ */
+export const INMETRO_TARE_SPREAD_ADVICE: TareSpreadRule = {
+  factor: 0.25,
+  minPackagingFraction: 0.05,
+  minTareSample: 25,
+  source: "advice only, not this market's rule: Brazil's INMETRO Portaria nº 248/2008 (packaging over 5 % of Qn, tare sample of 25)",
+};
+
+/** The rule's warning, or none (no rule, no tare sample, or its conditions not met). All quantities in the declared unit. */
+export function tareSpreadWarnings(
+  rule: TareSpreadRule | null,
+  tare: { standardDeviation: number | null; mean: number | null; count: number },
+  tne: number,
+  qn: number,
+  unit: Unit,
+): string[] {
+  if (rule === null || tare.standardDeviation === null || tare.mean === null) return [];
+  if (tare.count < rule.minTareSample || !(tare.mean > rule.minPackagingFraction * qn)) return [];
+  if (!(tare.standardDeviation > rule.factor * tne)) return [];
   return [
-    `the tare sample's standard deviation ${formatNumber(tareSd)} ${unit} exceeds 0.25 × TNE (${formatNumber(0.25 * tne)} ${unit}); weigh the tare of every pack instead (the limit of INMETRO Portaria nº 248/2008 for an average tare)`,
+    `the tare sample's standard deviation ${formatNumber(tare.standardDeviation)} ${unit} exceeds ${formatNumber(rule.factor)} × TNE (${formatNumber(rule.factor * tne)} ${unit}); weigh the tare of every pack instead (${rule.source})`,
   ];
 }
 
@@ -134,33 +195,30 @@ export function t1Criterion(
   accept: number,
   reject: number,
   planText: string,
+  clause: string,
+  fromMemory?: boolean,
+  names: { limit: string; tne: string } = { limit: 'T1', tne: 'TNE' },
 ): Criterion {
   const q = (v: number) => formatQuantity(v, unit);
   const passed: boolean | null = count <= accept ? true : count >= reject ? false : null;
-  const head = `${packs(count)} below T1 = ${q(t1Limit)} (Qn \u2212 TNE ${q(tne)})`;
+  const head = `${packs(count)} below ${names.limit} = ${q(t1Limit)} (Qn \u2212 ${names.tne} ${q(tne)})`;
   let tail: string;
   if (passed === true) tail = `within the ${accept} allowed ${planText}`;
   else if (passed === false) tail = `more than the ${accept} allowed ${planText}`;
   else tail = `between the acceptance number ${accept} and the rejection number ${reject} ${planText}: a second sample decides`;
-  return { id: 't1', observed: count, limit: accept, passed, sentence: `${head}: ${tail}` };
+  return { id: 't1', observed: count, limit: accept, passed, sentence: `${head}: ${tail}`, clause, ...memo(fromMemory) };
 }
 
-/** No pack may fall below T2 = Qn − 2·TNE (Directive 76/211/EEC Annex I, 1.3). */
-export function t2Criterion(count: number, t2Limit: number, unit: Unit): Criterion {
+/** Packs below T2 = Qn − 2·TNE against the number the rulebook allows (0 in the EU: Directive 76/211/EEC Annex I, 1.3). */
+export function t2Criterion(count: number, t2Limit: number, unit: Unit, allowed: number, clause: string, tneName = 'TNE'): Criterion {
   const q = (v: number) => formatQuantity(v, unit);
-  const passed = count === 0;
-  return {
-    id: 't2',
-    observed: count,
-    limit: 0,
-    passed,
-    sentence: passed
-      ? `no pack below T2 = ${q(t2Limit)} (Qn \u2212 2 × TNE)`
-      : `${packs(count)} below T2 = ${q(t2Limit)} (Qn \u2212 2 × TNE); none is allowed`,
-  };
+  const passed = count <= allowed;
+  const head = `${count === 0 ? 'no pack' : packs(count)} below T2 = ${q(t2Limit)} (Qn \u2212 2 × ${tneName})`;
+  const tail = allowed === 0 ? (passed ? '' : '; none is allowed') : `; ${passed ? 'within' : 'more than'} the ${allowed} allowed`;
+  return { id: 't2', observed: count, limit: allowed, passed, sentence: head + tail, clause };
 }
 
-export function sampleSizeCriterion(n: number, required: number, context: string): Criterion {
+export function sampleSizeCriterion(n: number, required: number, context: string, clause: string, fromMemory?: boolean): Criterion {
   const passed = n >= required;
   return {
     id: 'sample-size',
@@ -170,5 +228,7 @@ export function sampleSizeCriterion(n: number, required: number, context: string
     sentence: passed
       ? `${packs(n)} measured; the plan needs ${required} ${context}`
       : `only ${packs(n)} measured; the plan needs ${required} ${context}, so no decision is made`,
+    clause,
+    ...memo(fromMemory),
   };
 }

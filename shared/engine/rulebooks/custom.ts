@@ -11,13 +11,19 @@ import type { Judgement, JudgeContext, Rulebook } from './types';
 import { engineError } from '../errors';
 import { countAbove, countBelow, sampleSizeCriterion } from './criteria';
 import { formatQuantity } from '../format';
+import { EU_TNE, tneByTable } from './tne';
 
 export const CUSTOM_INFO: RulebookInfo = {
   id: 'custom',
   version: '1.0',
   title: 'Custom acceptance rules',
   source: 'set by the organisation; one-sample t test (Student 1908) or z test at the chosen significance level',
+  edition: 'the organisation’s own rules',
+  market: 'any (the organisation’s own rules)',
+  scope: { description: 'any quantity; no TNE', units: ['mg', 'g', 'kg', 'mL', 'cL', 'L', 'oz', 'lb', 'fl oz', 'US gal', 'imp fl oz', 'imp gal', 'count'] },
   provenance: 'The rules are the parameters the organisation enters; the defaults (α = 0.05, alternative less) are common practice.',
+  verified: [],
+  fromMemory: [],
   parameters: [
     { name: 'alpha', type: 'number', description: 'significance level of the mean test, in (0, 1)', default: 0.05 },
     { name: 'alternative', type: 'string', description: 'alternative hypothesis of the mean test', default: 'less', allowed: ['less', 'greater', 'two-sided'] },
@@ -90,6 +96,7 @@ function limitCriterion(
     limit: limit.allowed,
     passed,
     sentence: `${count === 1 ? '1 pack' : `${count} packs`} ${side} ${formatQuantity(limit.value, unit)}: ${passed ? 'within' : 'more than'} the ${limit.allowed} allowed`,
+    clause: `the organisation’s custom rules (${id === 'lower-limit' ? 'lowerLimit' : 'upperLimit'})`,
   };
 }
 
@@ -104,7 +111,7 @@ function judge(ctx: JudgeContext): Judgement {
     unit,
     ...(p.knownStandardDeviation !== undefined ? { knownStandardDeviation: p.knownStandardDeviation } : {}),
   };
-  const size = sampleSizeCriterion(net.length, minimum, 'by the organisation’s custom rules');
+  const size = sampleSizeCriterion(net.length, minimum, 'by the organisation’s custom rules', 'the organisation’s custom rules (minimumSampleSize)');
   const base = { meanTest, tne: null, warnings: [] as string[], additionalPacks: null };
   if (net.length < minimum) return { ...base, criteria: [size], insufficient: true };
   const criteria: Criterion[] = [size];
@@ -112,7 +119,8 @@ function judge(ctx: JudgeContext): Judgement {
   const meanTestCriterionAt = criteria.length;
   if (p.lowerLimit) criteria.push(limitCriterion('lower-limit', countBelow(net, p.lowerLimit.value, 0).count, p.lowerLimit, unit));
   if (p.upperLimit) criteria.push(limitCriterion('upper-limit', countAbove(net, p.upperLimit.value), p.upperLimit, unit));
-  return { ...base, criteria, insufficient: false, meanTestCriterionAt };
+  return { ...base, criteria, insufficient: false, meanTestCriterionAt, meanTestClause: 'the organisation’s custom rules (alpha, alternative, hypothesisedMean); Student (1908) t test or z test' };
 }
 
-export const custom: Rulebook = { info: CUSTOM_INFO, validate, judge };
+// The EU table, for information only (a preview of the product form): the custom rulebook judges by no TNE.
+export const custom: Rulebook = { info: CUSTOM_INFO, validate, judge, tne: (qn, unit) => tneByTable(qn, unit, EU_TNE) };

@@ -1,94 +1,51 @@
 /**
  * Rulebook `oiml-r87-2016`: OIML R 87 (2016), "Quantity of product in prepackages".
  *
- * FROM MEMORY; VERIFY: the lot-size bands, sample sizes and allowed T1 counts below were written
- * from memory and have not been checked against the text of R 87 (its 2016 edition could not be
- * read here). The rows for lots of 100 and more agree with the UK single plan (SI 2006/659 Sch. 2
- * para 3.3–3.5); no published text was found for the bands under 100. The TNE rows above 10 kg
- * agree with the UK government's published TNE table (see tne.ts).
- * The λ factors are arithmetic on Student's t (t(0.995; n − 1)/√n) and are computed, not tabled.
- * The verdict's rulebook source says so.
- *
- * Same mean check form as the EU average system; no pack may fall below T2. Choices made here,
- * as for eu-76-211: λ for the actual n; a larger sample is judged with the plan's allowed count;
- * when every pack of the lot is measured the mean check is x̄ ≥ Qn. The tare-sample warning at
- * 0.25 × TNE is given as for eu-76-211 (see `tareSpreadWarnings`).
+ * R 87's own text could not be read here. Its TNE table (0 g to 50 kg, a percentage TNE rounded up
+ * to 0.1 g/mL up to 1 000 and to a whole g/mL above) and its sampling plan (lots 1–10 every pack
+ * with no average check; then 10, 13, 50, 80, 125 packs with the printed λ) are taken from the
+ * national texts that reproduce it: Australia's NTMR 2009 reg 4.36(4) and China's JJF 1070
+ * 附表3–4 (markets.md §1.1–1.4). No pack below T2. The tare-spread warning is Brazil's rule,
+ * given as advice under its own conditions.
  */
-import type { LotInput, RulebookInfo } from '../types';
-import type { Judgement, JudgeContext, Rulebook } from './types';
-import { engineError } from '../errors';
-import { tolerableNegativeError } from './tne';
-import { countBelowT1T2, meanCheckFactor, meanCriterion, sampleSizeCriterion, t1Criterion, t2Criterion, tareSpreadWarnings } from './criteria';
+import type { RulebookInfo } from '../types';
+import { UNIT_NAMES } from '../units';
+import { R87_TNE } from './tne';
+import { INMETRO_TARE_SPREAD_ADVICE } from './criteria';
+import { averageSystemRulebook } from './averageSystem';
+import { R87_PRINTED_FACTORS, r87Plan } from './r87Plan';
+
+const REPRO = 'OIML R 87 (2016) as reproduced in JJF 1070 附表4';
 
 export const OIML_R87_INFO: RulebookInfo = {
   id: 'oiml-r87-2016',
-  version: '2016.2',
+  version: '2016.3',
   title: 'OIML R 87 (2016) quantity of product in prepackages',
+  edition: 'OIML R 87, edition 2016 (as reproduced in national texts)',
+  market: 'any market that adopts OIML R 87',
+  scope: { description: '0 g to 50 kg, 0 mL to 50 L', units: UNIT_NAMES.filter((u) => u !== 'count') },
   source:
-    'OIML R 87 Quantity of product in prepackages, edition 2016 (sampling plan from memory; verify. TNE above 10 kg as in the UK government table: 10 000–15 000 g → 150 g, above 15 000 g → 1 %)',
+    'OIML R 87 Quantity of product in prepackages, edition 2016: TNE table and sampling plan as reproduced in Australia NTMR 2009 reg 4.36(4) and China JJF 1070 附表3–4 (R 87’s own text not read)',
   provenance:
-    'Lot-size bands, sample sizes and allowed T1 counts are from memory and not verified against the text of R 87; those for lots of 100 and more agree with the UK single plan (SI 2006/659 Schedule 2 para 3.3–3.5), none was found for smaller lots. The TNE rows above 10 kg agree with the UK government’s published TNE table (gov.uk, “Weights and measures: the law — Packaged goods”); R 87’s own table was not available to check. The λ factors are computed from Student’s t.',
+    'TNE table, its rounding and the sampling plan with its printed λ read in the R 87-derived national texts (Australia NTMR 2009 reg 4.36(4) note a; China JJF 1070 附表3, 附表4, secondary reproductions); R 87’s own text could not be read.',
+  verified: [
+    'TNE 0 g–50 kg; percentage TNE rounded up to 0.1 g/mL up to 1 000 and to a whole g/mL above (NTMR reg 4.36(4) note a; 附表3 note)',
+    'plan 1–10 all (no average check, 0 T1); 11–50 → 10 (λ 1.028, 0); 51–99 → 13 (0.848, 1); 100–500 → 50 (0.379, 3); 501–3 200 → 80 (0.295, 5); over 3 200 → 125 (0.234, 7) (附表4)',
+  ],
+  fromMemory: [],
   parameters: [],
 };
 
-/** Sampling plan by lot size (from memory; verify). n null = every pack. */
-export const OIML_PLANS: readonly { minLot: number; maxLot: number; n: number | null; allowed: number }[] = [
-  { minLot: 1, maxLot: 10, n: null, allowed: 0 },
-  { minLot: 11, maxLot: 50, n: 10, allowed: 0 },
-  { minLot: 51, maxLot: 99, n: 13, allowed: 1 },
-  { minLot: 100, maxLot: 500, n: 50, allowed: 3 },
-  { minLot: 501, maxLot: 3200, n: 80, allowed: 5 },
-  { minLot: 3201, maxLot: Number.POSITIVE_INFINITY, n: 125, allowed: 7 },
-];
-
-export function oimlPlan(lotSize: number): { n: number | null; allowed: number } {
-  return OIML_PLANS.find((r) => lotSize >= r.minLot && lotSize <= r.maxLot)!;
-}
-
-function validate(input: LotInput): ReturnType<Rulebook['validate']> {
-  const tne = tolerableNegativeError(input.product.nominalQuantity, input.product.unit, 'oiml-r87-2016');
-  if (!tne.ok) return engineError('outside-rulebook-scope', `oiml-r87-2016: ${tne.reason}`, '/product/nominalQuantity');
-  if (input.lot.previousSample !== undefined) {
-    return engineError('second-sample-not-applicable', 'the OIML R 87 plan is a single sampling plan', '/lot/previousSample');
-  }
-  return null;
-}
-
-function judge(ctx: JudgeContext): Judgement | { error: ReturnType<typeof engineError> } {
-  const { input, net, unit, qn, mean, standardDeviation: sd } = ctx;
-  const { lotSize } = input.lot;
-  const tneRes = tolerableNegativeError(qn, unit, 'oiml-r87-2016');
-  if (!tneRes.ok) return { error: engineError('outside-rulebook-scope', tneRes.reason, '/product/nominalQuantity') };
-  const tne = tneRes.value;
-  const t1Limit = qn - tne;
-  const t2Limit = qn - 2 * tne;
-  const plan = oimlPlan(lotSize);
-  const n = net.length;
-  const base = {
-    meanTest: { hypothesisedMean: qn, alternative: 'less' as const, alpha: 0.005, unit },
-    tne: { value: tne, baseValue: tneRes.baseValue },
-    warnings: tareSpreadWarnings(ctx.tareSampleStandardDeviation, tne, unit),
-  };
-  const required = plan.n ?? lotSize;
-  const lotText = `for a lot of ${lotSize} packs (OIML R 87 plan, from memory; verify)`;
-  const size = sampleSizeCriterion(n, required, lotText);
-  if (n < required) return { ...base, criteria: [size], insufficient: true, additionalPacks: null };
-  const everyPack = n === lotSize;
-  const [t1, t2] = countBelowT1T2(net, t1Limit, t2Limit);
-  const planText = `by the plan for this lot size${n > required ? `, applied to all ${n} packs measured` : ''}`;
-  return {
-    ...base,
-    criteria: [
-      size,
-      meanCriterion(mean, sd, n, qn, everyPack ? null : meanCheckFactor(n), unit),
-      t1Criterion(t1.count, t1Limit, tne, unit, plan.allowed, plan.allowed + 1, planText),
-      t2Criterion(t2.count, t2Limit, unit),
-    ],
-    insufficient: false,
-    additionalPacks: null,
-    belowT1Indices: t1.indices,
-    belowT2Indices: t2.indices,
-  };
-}
-
-export const oimlR87: Rulebook = { info: OIML_R87_INFO, validate, judge };
+export const oimlR87 = averageSystemRulebook({
+  info: OIML_R87_INFO,
+  units: OIML_R87_INFO.scope.units,
+  tneTable: () => R87_TNE,
+  plan: (input) => r87Plan(input, REPRO, `${REPRO} note 2`),
+  printedFactors: R87_PRINTED_FACTORS,
+  printedIn: REPRO,
+  everyPackOfSampledLot: (_n, plan) => ({ allowed: plan.first.accept, basis: `the plan's ${plan.first.accept} for this lot size`, clause: REPRO }),
+  clauses: { mean: `${REPRO} (average requirement)`, t1: `${REPRO} (T1 allowed)`, t2: `${REPRO} (no pack below T2)`, sampleSize: REPRO },
+  t2Allowed: 0,
+  tareSpread: INMETRO_TARE_SPREAD_ADVICE,
+  planFromMemory: false,
+});

@@ -1,4 +1,4 @@
-import type { Criterion, EngineError, LotInput, RulebookInfo, Unit } from '../types';
+import type { Criterion, EngineError, LotInput, RulebookChoice, RulebookInfo, TneResult, Unit } from '../types';
 import type { MeanTestOptions } from '../inference/meanTest';
 
 /** What a rulebook sees: the validated input and the net quantities in the declared unit. */
@@ -14,6 +14,10 @@ export interface JudgeContext {
   standardDeviation: number;
   /** Standard deviation of the tare sample in the declared unit (tare mode 'sample', two or more tares), else null. */
   tareSampleStandardDeviation: number | null;
+  /** Mean tare in the declared unit (fixed or sample mode), else null. */
+  tareMean: number | null;
+  /** Packs in the tare sample (tare mode 'sample'), else 0. */
+  tareSampleCount: number;
 }
 
 export interface Judgement {
@@ -26,21 +30,28 @@ export interface Judgement {
   /**
    * Set by a rulebook whose mean criterion is the mean test's own conclusion (p against α): the
    * index in `criteria` at which the evaluator inserts that criterion once the test has run
-   * (see `meanTestCriterion` in ./criteria.ts). Absent otherwise.
+   * (see `meanTestCriterion` in ./criteria.ts), with its clause. Absent otherwise.
    */
   meanTestCriterionAt?: number;
-  /** TNE in the declared unit and in g/mL, or null when the rulebook has none. */
-  tne: { value: number; baseValue: number } | null;
+  meanTestClause?: string;
+  /** TNE (limit of error, MAV) in the declared unit and as its table states it, or null when the rulebook has none. */
+  tne: { value: number; baseValue: number; baseUnit: Unit } | null;
+  /** The quantity judged against, when it is not the declared nominal quantity (the larger of a dual declaration). */
+  nominal?: number;
   /** The rulebook's warnings, in the order the verdict lists them. */
   warnings: string[];
   /** 0-based indices of packs below T1 and below T2 (first 100 each), when the rulebook has a TNE. */
   belowT1Indices?: number[];
   belowT2Indices?: number[];
+  /** True when the rulebook has no T2 (twice the TNE) rule: the verdict's t2Limit is null. */
+  noT2?: boolean;
 }
 
 export interface Rulebook {
   info: RulebookInfo;
-  /** Rulebook-specific input checks (scope, parameters); null when fine. */
+  /** Rulebook-specific input checks (units, scope, parameters); null when fine. */
   validate(input: LotInput): EngineError | null;
   judge(ctx: JudgeContext): Judgement | { error: EngineError };
+  /** The rulebook's TNE (limit of error, MAV) for a declaration, for previews; absent when it has none. */
+  tne?(qn: number, unit: Unit, params: RulebookChoice['params']): TneResult;
 }

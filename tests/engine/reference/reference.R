@@ -9,6 +9,7 @@
 #   W <id> <alternative> <mu> <exact: TRUE|FALSE|NULL> <x1> ...   wilcox.test (correct = TRUE)
 #   Q <id> <p> <df>                                        qt(p, df)
 #   P <id> <t> <df>                                        pt(t, df) and pt(t, df, lower.tail = FALSE)
+#   M <id> <x1> ...                                        mean(x) and sd(x)
 #   B <id> <reps> <x1> ...                                 time `reps` calls of t.test(x, mu = mean(x) - 1, alternative = "less")
 # Output: "<id> v1 v2 ..." per task, each value printed with sprintf('%.17g') (NA for a missing value).
 args <- commandArgs(trailingOnly = TRUE)
@@ -34,6 +35,10 @@ for (k in seq_along(lines)) {
       ex <- switch(f[5], "TRUE" = TRUE, "FALSE" = FALSE, NULL)
       r <- suppressWarnings(wilcox.test(num(f[-(1:5)]), mu = num(f[4]), alternative = f[3], exact = ex, correct = TRUE))
       c(r$statistic, r$p.value, as.numeric(grepl("exact", r$method, fixed = TRUE)))
+    },
+    M = {
+      x <- num(f[-(1:2)])
+      c(mean(x), sd(x))
     },
     Q = c(qt(num(f[3]), num(f[4]))),
     P = c(pt(num(f[3]), num(f[4])), pt(num(f[3]), num(f[4]), lower.tail = FALSE)),

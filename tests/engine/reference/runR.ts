@@ -32,7 +32,8 @@ export type RTask =
   | { kind: 'W'; id: string; alternative: string; mu: number; exact: boolean | null; x: ArrayLike<number> }
   | { kind: 'Q'; id: string; p: number; df: number }
   | { kind: 'P'; id: string; t: number; df: number }
-  | { kind: 'B'; id: string; reps: number; x: ArrayLike<number> };
+  | { kind: 'B'; id: string; reps: number; x: ArrayLike<number> }
+  | { kind: 'M'; id: string; x: ArrayLike<number> };
 
 /** R spells the two-sided alternative 'two.sided'. */
 const rAlt = (a: string) => (a === 'two-sided' ? 'two.sided' : a);
@@ -52,6 +53,8 @@ function line(t: RTask): string {
       return `P ${t.id} ${hexFloat(t.t)} ${hexFloat(t.df)}`;
     case 'B':
       return `B ${t.id} ${t.reps} ${xs(t.x)}`;
+    case 'M':
+      return `M ${t.id} ${xs(t.x)}`;
   }
 }
 

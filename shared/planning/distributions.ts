@@ -1,0 +1,158 @@
+/**
+ * Distributions the planning module needs beyond the engine's normal and Student t.
+ *
+ * - Noncentral t CDF. No maintained npm package has one we could rely on: the @stdlib collection
+ *   has no noncentral t, and jstat's `noncentralt.cdf` sums the Poisson-weighted beta series from
+ *   j = 0 (Lenth 1989, AS 243) without starting at the mode, so its weights underflow (e^(−δ²/2) = 0
+ *   for |δ| > 38) and its flip for negative t loses the tail. So it is written here, from its
+ *   definition: T = (Z + δ)/√(W/ν) with Z ~ N(0,1), W ~ χ²(ν) independent, hence
+ *   P(T ≤ t) = E[Φ(t·√(W/ν) − δ)], integrated over log √(W/ν) by adaptive Gauss–Kronrod (7–15)
+ *   quadrature (Kronrod 1965; nodes and weights as tabulated in QUADPACK, Piessens et al. 1983).
+ *   Checked against R's `pt(q, df, ncp)` in tests/unit/planning-distributions.test.ts.
+ * - Binomial and hypergeometric probabilities, summed from log binomial coefficients (the plans'
+ *   samples are at most a few hundred packs, so exact sums are cheap). Checked against R's
+ *   `pbinom`/`phyper`.
+ * - χ² quantile (@stdlib gammaincinv) and the regularised incomplete beta (@stdlib betainc), for
+ *   the confidence bound on a pooled standard deviation and the Clopper–Pearson interval.
+ */
+import normalCdf from '@stdlib/stats-base-dists-normal-cdf';
+import normalQuantile from '@stdlib/stats-base-dists-normal-quantile';
+import tCdf from '@stdlib/stats-base-dists-t-cdf';
+import tQuantile from '@stdlib/stats-base-dists-t-quantile';
+import gammaln from '@stdlib/math-base-special-gammaln';
+import gammaincinv from '@stdlib/math-base-special-gammaincinv';
+import betainc from '@stdlib/math-base-special-betainc';
+
+export const phi = (z: number): number => normalCdf(z, 0, 1);
+export const phiInv = (p: number): number => normalQuantile(p, 0, 1);
+export const tLower = (t: number, df: number): number => tCdf(t, df);
+export const tInv = (p: number, df: number): number => tQuantile(p, df);
+export const logGamma = (x: number): number => gammaln(x);
+
+// Gauss–Kronrod 7–15 nodes and weights (QUADPACK qk15).
+const XGK = [0.991455371120812639206854697526329, 0.949107912342758524526189684047851, 0.864864423359769072789712788640926, 0.741531185599394439863864773280788, 0.586087235467691130294144845693013, 0.405845151377397166906606412076961, 0.207784955007898467600689403773245, 0];
+const WGK = [0.022935322010529224963732008058970, 0.063092092629978553290700663189204, 0.104790010322250183839876322541518, 0.140653259715525918745189590510238, 0.169004726639267902826583426598550, 0.190350578064785409913256402421014, 0.204432940075298892414161999234649, 0.209482141084727828012999174891714];
+const WG = [0.129484966168869693270611432679082, 0.279705391489276667901467771423780, 0.381830050505118944950369775488975, 0.417959183673469387755102040816327];
+
+function kronrod(f: (x: number) => number, a: number, b: number): { value: number; error: number } {
+  const c = (a + b) / 2;
+  const h = (b - a) / 2;
+  const fc = f(c);
+  let k = fc * WGK[7]!;
+  let g = fc * WG[3]!;
+  for (let j = 0; j < 7; j++) {
+    const dx = h * XGK[j]!;
+    const s = f(c - dx) + f(c + dx);
+    k += WGK[j]! * s;
+    if (j % 2 === 1) g += WG[(j - 1) / 2]! * s;
+  }
+  return { value: k * h, error: Math.abs((k - g) * h) };
+}
+
+/** Adaptive Gauss–Kronrod on [a, b] to an absolute tolerance. */
+export function integrate(f: (x: number) => number, a: number, b: number, tol = 1e-14, depth = 0): number {
+  const r = kronrod(f, a, b);
+  if (r.error <= tol || depth >= 40) return r.value;
+  const m = (a + b) / 2;
+  return integrate(f, a, m, tol / 2, depth + 1) + integrate(f, m, b, tol / 2, depth + 1);
+}
+
+/** log density of x = log √(W/ν) for W ~ χ²(ν). */
+function logDensityLogS(x: number, df: number, logNorm: number): number {
+  // s = e^x, w = ν s²; f_x(x) = f_W(ν s²) · 2ν s² (dw/dx = 2ν s²)
+  const w = df * Math.exp(2 * x);
+  return (df / 2 - 1) * Math.log(w) - w / 2 + logNorm + Math.log(2 * w);
+}
+
+/** P(T ≤ t) for T noncentral t with df degrees of freedom and noncentrality ncp (R: pt(t, df, ncp)). */
+export function noncentralTCdf(t: number, df: number, ncp: number): number {
+  if (!(df > 0) || !Number.isFinite(t) || !Number.isFinite(ncp)) {
+    if (t === Number.POSITIVE_INFINITY) return 1;
+    if (t === Number.NEGATIVE_INFINITY) return 0;
+    return Number.NaN;
+  }
+  if (t === 0) return phi(-ncp);
+  if (ncp === 0) return tLower(t, df);
+  const logNorm = -(df / 2) * Math.log(2) - logGamma(df / 2);
+  // Mode of the log-s density: d/dx [ν x − ν e^{2x}/2] = 0 → x = 0 (exactly, for every ν).
+  const top = logDensityLogS(0, df, logNorm);
+  const cut = top - 46; // density below e^-46 ≈ 1e-20 of the peak contributes nothing we can see
+  let lo = -0.5;
+  while (logDensityLogS(lo, df, logNorm) > cut) lo -= 0.5;
+  let hi = 0.5;
+  while (logDensityLogS(hi, df, logNorm) > cut) hi += 0.25;
+  const f = (x: number) => phi(t * Math.exp(x) - ncp) * Math.exp(logDensityLogS(x, df, logNorm));
+  // Split at the mode and where Φ's argument crosses zero, so each piece is smooth.
+  const points = [lo, hi, 0];
+  const cross = Math.log(ncp / t);
+  if (ncp / t > 0 && cross > lo && cross < hi) points.push(cross);
+  points.sort((a, b) => a - b);
+  let sum = 0;
+  for (let i = 0; i + 1 < points.length; i++) sum += integrate(f, points[i]!, points[i + 1]!, 1e-15);
+  return Math.min(1, Math.max(0, sum));
+}
+
+/** P(T > t) for the same noncentral t, as P(−T < −t) with −T noncentral t(−ncp), keeping small upper tails. */
+export function noncentralTUpper(t: number, df: number, ncp: number): number {
+  return noncentralTCdf(-t, df, -ncp);
+}
+
+function logChoose(n: number, k: number): number {
+  return logGamma(n + 1) - logGamma(k + 1) - logGamma(n - k + 1);
+}
+
+/** P(X = k) for X ~ Binomial(n, p). */
+export function binomialPmf(k: number, n: number, p: number): number {
+  if (k < 0 || k > n || !Number.isInteger(k)) return 0;
+  if (p <= 0) return k === 0 ? 1 : 0;
+  if (p >= 1) return k === n ? 1 : 0;
+  return Math.exp(logChoose(n, k) + k * Math.log(p) + (n - k) * Math.log1p(-p));
+}
+
+/** P(X ≤ k) for X ~ Binomial(n, p) (R: pbinom(k, n, p)). */
+export function binomialCdf(k: number, n: number, p: number): number {
+  if (k < 0) return 0;
+  if (k >= n) return 1;
+  // P(X ≤ k) = I_{1−p}(n − k, k + 1), the regularised incomplete beta (exact identity).
+  return betainc(1 - p, n - k, k + 1);
+}
+
+/** P(X = k) for X hypergeometric: k defectives in a sample of n from N holding D (R: dhyper(k, D, N − D, n)). */
+export function hypergeometricPmf(k: number, N: number, D: number, n: number): number {
+  if (k < Math.max(0, n - (N - D)) || k > Math.min(n, D)) return 0;
+  return Math.exp(logChoose(D, k) + logChoose(N - D, n - k) - logChoose(N, n));
+}
+
+/** P(X ≤ k) for the same (R: phyper(k, D, N − D, n)). */
+export function hypergeometricCdf(k: number, N: number, D: number, n: number): number {
+  let s = 0;
+  const top = Math.min(k, n, D);
+  for (let j = Math.max(0, n - (N - D)); j <= top; j++) s += hypergeometricPmf(j, N, D, n);
+  return Math.min(1, s);
+}
+
+/** The p-quantile of χ²(df) (R: qchisq(p, df)). */
+export function chiSquareQuantile(p: number, df: number): number {
+  return 2 * gammaincinv(p, df / 2);
+}
+
+/** The p-quantile of Beta(a, b) by bisection on @stdlib's regularised incomplete beta (R: qbeta). */
+export function betaQuantile(p: number, a: number, b: number): number {
+  let lo = 0;
+  let hi = 1;
+  for (let i = 0; i < 200 && hi - lo > 1e-15; i++) {
+    const m = (lo + hi) / 2;
+    if (betainc(m, a, b) < p) lo = m;
+    else hi = m;
+  }
+  return (lo + hi) / 2;
+}
+
+/** Clopper–Pearson (1934, Biometrika 26) exact interval for a binomial proportion at the given confidence. */
+export function clopperPearson(x: number, n: number, confidence = 0.95): { lower: number; upper: number } {
+  const a = (1 - confidence) / 2;
+  return {
+    lower: x === 0 ? 0 : betaQuantile(a, x, n - x + 1),
+    upper: x === n ? 1 : betaQuantile(1 - a, x + 1, n - x),
+  };
+}
