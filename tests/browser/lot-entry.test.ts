@@ -8,7 +8,7 @@ import type { Page } from 'playwright-core';
 import { beforeAll, describe, expect, it } from 'vitest';
 import { issueApiKey } from '../../server/identity/api-key-store';
 import { measurements } from '../support/lots';
-import { screenshot, seedProduct, signIn, useHarness } from './support';
+import { pickProduct, screenshot, seedProduct, signIn, useHarness } from './support';
 
 const h = useHarness('lot-entry');
 let product: { id: string; sku: string; name: string };
@@ -37,12 +37,7 @@ const verdictCount = async () =>
 async function openForm(page: Page): Promise<void> {
   await signIn(page, h.users.quality);
   await page.goto('/lots/new');
-  await page.locator('[data-product-picker]').waitFor();
-  await page.waitForLoadState('networkidle');
-  await page.locator('[data-product-picker]').pressSequentially('lot entry');
-  await page.getByRole('option', { name: /Rolled oats 500 g \(lot entry\)/ }).waitFor();
-  await page.locator('[data-product-picker]').press('Enter');
-  await page.locator('[data-product-spec]').waitFor();
+  await pickProduct(page, 'lot entry', /Rolled oats 500 g \(lot entry\)/);
 }
 
 /** Weights into the grid as a column pasted into the cell of pack `at` (1-based), as a spreadsheet's copy gives them. */

@@ -2,7 +2,7 @@
 // progress bar, its sealed verdict drawn; then the seal checked in the auditor's browser, and a
 // tampered export refused.
 import { beforeAll, describe, expect, it } from 'vitest';
-import { demoCsv, screenshot, seedProduct, signIn, useHarness } from './support';
+import { demoCsv, pickProduct, screenshot, seedProduct, signIn, useHarness } from './support';
 
 const h = useHarness('lots');
 let product: { id: string; sku: string; name: string };
@@ -19,12 +19,7 @@ describe('submitting a lot by hand', () => {
     await signIn(page, h.users.quality);
     await page.locator('[data-nav-item="lot-new"]').click();
     // By keyboard: type part of the name, the first match is active, Enter takes it.
-    await page.locator('[data-product-picker]').waitFor();
-    await page.waitForLoadState('networkidle');
-    await page.locator('[data-product-picker]').pressSequentially('browser test');
-    await page.getByRole('option', { name: /Rolled oats 500 g \(browser test\)/ }).waitFor();
-    await page.locator('[data-product-picker]').press('Enter');
-    await page.locator('[data-product-spec]').waitFor();
+    await pickProduct(page, 'browser test', /Rolled oats 500 g \(browser test\)/);
     await page.getByLabel('Lot code').fill('L-BRW-0001');
     await page.getByLabel('Line').fill('Line 2');
     await page.getByLabel('Lot size (packs)').fill('4800');

@@ -162,3 +162,16 @@ export function demoCsv(n = 60, mean = 503, seed = 20240611): string {
   }
   return `${rows.join('\n')}\n`;
 }
+
+/**
+ * On the lot form: type part of a product's name into the picker, wait for the option, take it with
+ * Enter (the keyboard path: the first match is active), and wait for the product's spec to show.
+ */
+export async function pickProduct(page: Page, typed: string, option: RegExp): Promise<void> {
+  await page.locator('[data-product-picker]').waitFor();
+  await page.waitForLoadState('networkidle');
+  await page.locator('[data-product-picker]').pressSequentially(typed);
+  await page.getByRole('option', { name: option }).waitFor();
+  await page.locator('[data-product-picker]').press('Enter');
+  await page.locator('[data-product-spec]').waitFor();
+}
