@@ -1,9 +1,10 @@
-// The forms' logic: verdict filters to and from the address and the list operation's query, and
+// The forms' logic: the verdict list's sorts and day boundaries, and
 // the product form checked with the API's own ProductInput schema (openapi/parts/verdicts.yaml).
 import { describe, expect, it } from 'vitest';
 import { mount } from '@vue/test-utils';
 import { nextTick } from 'vue';
-import { apiQuery, EMPTY_FILTERS, filterProblem, filtersFromQuery, nextSort, queryFromFilters, SORTS } from '../../console/src/lib/verdictFilters';
+import { dayBoundary, nextSort, SORTS } from '../../console/src/lib/verdictFilters';
+import { finderApiQuery, finderFromQuery, NO_FILTERS } from '../../console/src/components/verdicts/lotFinder';
 import { crossFieldErrors, draftOf, emptyDraft, productInputOf } from '../../console/src/lib/productForm';
 import { placeErrors, plainFieldMessage, validateProductInput, validateWebhookInput } from '../../console/src/lib/formValidation';
 import { fieldErrors } from '../../console/src/api/problem';
@@ -12,33 +13,20 @@ import addFormats from 'ajv-formats';
 import { createPinia } from 'pinia';
 import { createMemoryHistory, createRouter } from 'vue-router';
 import ProductFormView from '../../console/src/views/ProductFormView.vue';
-import FilterBar from '../../console/src/components/FilterBar.vue';
 
 describe('verdict filters', () => {
-  it('round-trips through the address and drops malformed values', () => {
-    const f = filtersFromQuery({ decision: 'nonconforming', from: '2025-03-01', to: 'yesterday', lot: ' L-7 ', sort: 'lotCode', junk: 'x' });
-    expect(f).toEqual({ ...EMPTY_FILTERS, decision: 'nonconforming', from: '2025-03-01', lotCode: ' L-7 ', sort: 'lotCode' });
-    expect(queryFromFilters(f)).toEqual({ decision: 'nonconforming', from: '2025-03-01', lot: 'L-7', sort: 'lotCode' });
-    expect(filtersFromQuery({ decision: 'approved' }).decision).toBe('');
-  });
-
-  it('asks listVerdicts with its own parameter names, the to-day inclusive', () => {
-    const q = apiQuery({ ...EMPTY_FILTERS, productId: 'p1', line: 'Line 2', from: '2025-03-01', to: '2025-03-31' }, 'c9');
-    expect(Object.keys(q).sort()).toEqual(['cursor', 'from', 'limit', 'line', 'productId', 'to']);
-    expect(new Date(String(q.to)).getDate()).toBe(1); // the first instant of 1 April, local time
-    expect(new Date(String(q.to)).getMonth()).toBe(3);
-  });
-
-  it('refuses a range whose start is after its end', () => {
-    expect(filterProblem({ ...EMPTY_FILTERS, from: '2025-04-02', to: '2025-04-01' })).toMatch(/after/);
-    expect(filterProblem({ ...EMPTY_FILTERS, from: '2025-04-01', to: '2025-04-01' })).toBeNull();
+  it('gives a day filter the first instant of its day, and of the next day for an inclusive end', () => {
+    const from = new Date(dayBoundary('2025-03-31'));
+    const to = new Date(dayBoundary('2025-03-31', true));
+    expect([from.getMonth(), from.getDate(), from.getHours()]).toEqual([2, 31, 0]);
+    expect([to.getMonth(), to.getDate(), to.getHours()]).toEqual([3, 1, 0]);
   });
 
   it('sends the sort to listVerdicts (not the default), and a heading flips it', () => {
-    expect(apiQuery({ ...EMPTY_FILTERS, sort: 'decision' }).sort).toBe('decision');
-    expect(apiQuery(EMPTY_FILTERS).sort).toBeUndefined();
-    expect(filtersFromQuery({ sort: '-decision' }).sort).toBe('-decision');
-    expect(filtersFromQuery({ sort: 'sequence' }).sort).toBe('-recordedAt');
+    expect(finderApiQuery({ ...NO_FILTERS, sort: 'decision' }, { cursor: null, limit: 25, counts: true }).sort).toBe('decision');
+    expect(finderApiQuery(NO_FILTERS, { cursor: null, limit: 25, counts: true }).sort).toBeUndefined();
+    expect(finderFromQuery({ sort: '-decision' }).sort).toBe('-decision');
+    expect(finderFromQuery({ sort: 'sequence' }).sort).toBe('-recordedAt');
     expect(SORTS).toHaveLength(8);
     expect(nextSort('-recordedAt', 'recordedAt')).toBe('recordedAt');
     expect(nextSort('recordedAt', 'recordedAt')).toBe('-recordedAt');
@@ -46,21 +34,6 @@ describe('verdict filters', () => {
     expect(nextSort('-recordedAt', 'lotCode')).toBe('lotCode');
     expect(nextSort('lotCode', 'lotCode')).toBe('-lotCode');
     expect(nextSort('-lotCode', 'decision')).toBe('decision');
-  });
-
-  it('FilterBar emits the whole set on Apply, and not while the range is backwards', async () => {
-    const wrapper = mount(FilterBar, { props: { modelValue: { ...EMPTY_FILTERS }, products: [] }, attachTo: document.body });
-    await wrapper.find('#f-line').setValue('Line 4');
-    await wrapper.find('#f-from').setValue('2025-05-10');
-    await wrapper.find('#f-to').setValue('2025-05-01');
-    await nextTick();
-    expect(wrapper.find('[role="alert"]').text()).toMatch(/after/);
-    await wrapper.find('form').trigger('submit');
-    expect(wrapper.emitted('update:modelValue')).toBeUndefined();
-    await wrapper.find('#f-to').setValue('2025-05-31');
-    await wrapper.find('form').trigger('submit');
-    expect(wrapper.emitted('update:modelValue')?.[0]?.[0]).toMatchObject({ line: 'Line 4', from: '2025-05-10', to: '2025-05-31' });
-    wrapper.unmount();
   });
 });
 

@@ -1,9 +1,7 @@
-// Verdicts: the filtered, sorted, cursor-paged list, one verdict's detail, and the export.
+// One verdict: its detail, its sealed document (the export), a seal's lookup and a recomputation.
+// (The filtered, counted, cursor-paged list: stores/verdictFinder.ts.)
 import { defineStore } from 'pinia';
-import { ref } from 'vue';
 import { api, call } from '../api/client';
-import { useRequestState } from './request-state';
-import { apiQuery, type VerdictFilters } from '../lib/verdictFilters';
 import type { components } from '../../../shared/api/schema';
 
 export type Verdict = components['schemas']['Verdict'];
@@ -12,31 +10,6 @@ export type SealLookup = components['schemas']['SealLookup'];
 export type Recomputation = components['schemas']['Recomputation'];
 
 export const useVerdictsStore = defineStore('verdicts', () => {
-  const items = ref<Verdict[]>([]);
-  const { loading, problem, track } = useRequestState();
-  /** Cursors of the pages seen so far: cursors[i] opens page i (page 0 has none). */
-  const cursors = ref<(string | null)[]>([null]);
-  const page = ref(0);
-  const nextCursor = ref<string | null>(null);
-  let lastFilters: VerdictFilters | null = null;
-
-  async function load(filters: VerdictFilters, pageIndex = 0): Promise<void> {
-    if (lastFilters && JSON.stringify(lastFilters) !== JSON.stringify(filters)) {
-      cursors.value = [null];
-      pageIndex = 0;
-    }
-    lastFilters = { ...filters };
-    await track(async () => {
-      const cursor = cursors.value[pageIndex] ?? null;
-      const res = await call(api.GET('/v1/verdicts', { params: { query: apiQuery(filters, cursor) as never } }));
-      items.value = res.items;
-      page.value = pageIndex;
-      nextCursor.value = res.nextCursor ?? null;
-      cursors.value[pageIndex + 1] = nextCursor.value;
-      cursors.value.length = pageIndex + 2;
-    });
-  }
-
   async function get(id: string): Promise<Verdict> {
     return call(api.GET('/v1/verdicts/{verdictId}', { params: { path: { verdictId: id } } }));
   }
@@ -55,5 +28,5 @@ export const useVerdictsStore = defineStore('verdicts', () => {
     return call(api.POST('/v1/verdicts/{verdictId}/recompute', { params: { path: { verdictId: id } } }));
   }
 
-  return { items, loading, problem, page, nextCursor, load, get, document, bySeal, recompute };
+  return { get, document, bySeal, recompute };
 });
