@@ -8,7 +8,7 @@
  *   definition: T = (Z + δ)/√(W/ν) with Z ~ N(0,1), W ~ χ²(ν) independent, hence
  *   P(T ≤ t) = E[Φ(t·√(W/ν) − δ)], integrated over log √(W/ν) by adaptive Gauss–Kronrod (7–15)
  *   quadrature (Kronrod 1965; nodes and weights as tabulated in QUADPACK, Piessens et al. 1983).
- *   Checked against R's `pt(q, df, ncp)` in tests/unit/planning-distributions.test.ts.
+ *   Checked against R's `pt(q, df, ncp)` in tests/engine/planning-reference.test.ts.
  * - Binomial and hypergeometric probabilities, summed from log binomial coefficients (the plans'
  *   samples are at most a few hundred packs, so exact sums are cheap). Checked against R's
  *   `pbinom`/`phyper`.
@@ -49,12 +49,29 @@ function kronrod(f: (x: number) => number, a: number, b: number): { value: numbe
   return { value: k * h, error: Math.abs((k - g) * h) };
 }
 
-/** Adaptive Gauss–Kronrod on [a, b] to an absolute tolerance. */
-export function integrate(f: (x: number) => number, a: number, b: number, tol = 1e-14, depth = 0): number {
-  const r = kronrod(f, a, b);
-  if (r.error <= tol || depth >= 40) return r.value;
-  const m = (a + b) / 2;
-  return integrate(f, a, m, tol / 2, depth + 1) + integrate(f, m, b, tol / 2, depth + 1);
+/**
+ * Globally adaptive Gauss–Kronrod on [a, b] (the QUADPACK qag strategy): bisect the piece with the
+ * largest error estimate until the summed estimate is below max(absTol, relTol·|integral|), or
+ * `maxPieces` pieces. (A recursion that halves an absolute tolerance at every level can ask for
+ * less than the rounding error of a piece and then never stops.)
+ */
+export function integrate(f: (x: number) => number, a: number, b: number, absTol = 1e-15, relTol = 1e-13, maxPieces = 2000): number {
+  const pieces: { a: number; b: number; value: number; error: number }[] = [{ a, b, ...kronrod(f, a, b) }];
+  for (;;) {
+    let value = 0;
+    let error = 0;
+    let worst = 0;
+    for (let i = 0; i < pieces.length; i++) {
+      value += pieces[i]!.value;
+      error += pieces[i]!.error;
+      if (pieces[i]!.error > pieces[worst]!.error) worst = i;
+    }
+    if (error <= Math.max(absTol, relTol * Math.abs(value)) || pieces.length >= maxPieces) return value;
+    const p = pieces[worst]!;
+    const m = (p.a + p.b) / 2;
+    if (!(m > p.a && m < p.b)) return value; // no room left to split
+    pieces.splice(worst, 1, { a: p.a, b: m, ...kronrod(f, p.a, m) }, { a: m, b: p.b, ...kronrod(f, m, p.b) });
+  }
 }
 
 /** log density of x = log √(W/ν) for W ~ χ²(ν). */
@@ -77,10 +94,12 @@ export function noncentralTCdf(t: number, df: number, ncp: number): number {
   // Mode of the log-s density: d/dx [ν x − ν e^{2x}/2] = 0 → x = 0 (exactly, for every ν).
   const top = logDensityLogS(0, df, logNorm);
   const cut = top - 46; // density below e^-46 ≈ 1e-20 of the peak contributes nothing we can see
-  let lo = -0.5;
-  while (logDensityLogS(lo, df, logNorm) > cut) lo -= 0.5;
-  let hi = 0.5;
-  while (logDensityLogS(hi, df, logNorm) > cut) hi += 0.25;
+  // The density's width is about 1/√(2ν): step by a fraction of it so large ν keeps its peak inside.
+  const step = Math.min(0.5, 1 / Math.sqrt(df));
+  let lo = -step;
+  while (logDensityLogS(lo, df, logNorm) > cut) lo -= step;
+  let hi = step;
+  while (logDensityLogS(hi, df, logNorm) > cut) hi += step / 2;
   const f = (x: number) => phi(t * Math.exp(x) - ncp) * Math.exp(logDensityLogS(x, df, logNorm));
   // Split at the mode and where Φ's argument crosses zero, so each piece is smooth.
   const points = [lo, hi, 0];
@@ -88,7 +107,7 @@ export function noncentralTCdf(t: number, df: number, ncp: number): number {
   if (ncp / t > 0 && cross > lo && cross < hi) points.push(cross);
   points.sort((a, b) => a - b);
   let sum = 0;
-  for (let i = 0; i + 1 < points.length; i++) sum += integrate(f, points[i]!, points[i + 1]!, 1e-15);
+  for (let i = 0; i + 1 < points.length; i++) sum += integrate(f, points[i]!, points[i + 1]!);
   return Math.min(1, Math.max(0, sum));
 }
 

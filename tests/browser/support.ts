@@ -168,10 +168,20 @@ export function demoCsv(n = 60, mean = 503, seed = 20240611): string {
  * Enter (the keyboard path: the first match is active), and wait for the product's spec to show.
  */
 export async function pickProduct(page: Page, typed: string, option: RegExp): Promise<void> {
-  await page.locator('[data-product-picker]').waitFor();
+  const picker = page.locator('[data-product-picker]');
+  await picker.waitFor();
   await page.waitForLoadState('networkidle');
-  await page.locator('[data-product-picker]').pressSequentially(typed);
-  await page.getByRole('option', { name: option }).waitFor();
-  await page.locator('[data-product-picker]').press('Enter');
+  // On a loaded machine the products may arrive after the typing has closed the list: type again.
+  for (let attempt = 1; ; attempt++) {
+    await picker.fill('');
+    await picker.pressSequentially(typed);
+    try {
+      await page.getByRole('option', { name: option }).waitFor({ timeout: 8_000 });
+      break;
+    } catch (err) {
+      if (attempt === 3) throw err;
+    }
+  }
+  await picker.press('Enter');
   await page.locator('[data-product-spec]').waitFor();
 }
