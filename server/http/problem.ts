@@ -99,14 +99,18 @@ const DB_DOWN_NAMES = new Set([
 ]);
 const DB_DOWN_CODES = new Set(['ECONNREFUSED', 'ECONNRESET', 'ETIMEDOUT', '57P01', '57P02', '57P03', '08006', '08001', '08003']);
 
-/** True for errors that mean "the database is not reachable right now". */
+/**
+ * True for errors that mean "the database is not reachable right now". pg's own messages for a
+ * client whose connection broke (or that was closed) before a query was sent are among them: that
+ * query never reached the server.
+ */
 export function isDatabaseUnavailable(err: unknown): boolean {
   let e: unknown = err;
   for (let depth = 0; e && typeof e === 'object' && depth < 5; depth++) {
     const o = e as { name?: string; code?: string; message?: string; parent?: unknown; original?: unknown; cause?: unknown };
     if (o.name && DB_DOWN_NAMES.has(o.name)) return true;
     if (o.code && DB_DOWN_CODES.has(o.code)) return true;
-    if (o.message && /Connection terminated|terminating connection|the database system is (starting up|shutting down)/i.test(o.message)) return true;
+    if (o.message && /Connection terminated|terminating connection|the database system is (starting up|shutting down)|Client has encountered a connection error and is not queryable|Client was closed and is not queryable/i.test(o.message)) return true;
     e = o.parent ?? o.original ?? o.cause;
   }
   return false;
