@@ -17,7 +17,7 @@
  */
 import normalCdf from '@stdlib/stats-base-dists-normal-cdf';
 import normalQuantile from '@stdlib/stats-base-dists-normal-quantile';
-import tCdf from '@stdlib/stats-base-dists-t-cdf';
+import studentTCdfOf from '@stdlib/stats-base-dists-t-cdf';
 import tQuantile from '@stdlib/stats-base-dists-t-quantile';
 import gammaln from '@stdlib/math-base-special-gammaln';
 import gammaincinv from '@stdlib/math-base-special-gammaincinv';
@@ -25,8 +25,8 @@ import betainc from '@stdlib/math-base-special-betainc';
 
 export const phi = (z: number): number => normalCdf(z, 0, 1);
 export const phiInv = (p: number): number => normalQuantile(p, 0, 1);
-export const tLower = (t: number, df: number): number => tCdf(t, df);
-export const tInv = (p: number, df: number): number => tQuantile(p, df);
+export const studentTCdf = (t: number, df: number): number => studentTCdfOf(t, df);
+export const studentTQuantile = (p: number, df: number): number => tQuantile(p, df);
 export const logGamma = (x: number): number => gammaln(x);
 
 // Gauss–Kronrod 7–15 nodes and weights (QUADPACK qk15).
@@ -89,7 +89,7 @@ export function noncentralTCdf(t: number, df: number, ncp: number): number {
     return Number.NaN;
   }
   if (t === 0) return phi(-ncp);
-  if (ncp === 0) return tLower(t, df);
+  if (ncp === 0) return studentTCdf(t, df);
   const logNorm = -(df / 2) * Math.log(2) - logGamma(df / 2);
   // Mode of the log-s density: d/dx [ν x − ν e^{2x}/2] = 0 → x = 0 (exactly, for every ν).
   const top = logDensityLogS(0, df, logNorm);

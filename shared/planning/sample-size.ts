@@ -8,7 +8,7 @@
  * `tol` gives the same); the packs to measure are its ceiling.
  * Checked against R in tests/engine/planning-reference.test.ts.
  */
-import { tInv, noncentralTCdf, noncentralTUpper } from './distributions';
+import { studentTQuantile, noncentralTCdf, noncentralTUpper } from './distributions';
 import { PlanningInputError } from './operating-characteristic';
 
 export type Sides = 'one-sided' | 'two-sided';
@@ -35,7 +35,7 @@ function check(i: PowerInput): void {
 function powerAt(n: number, i: PowerInput): number {
   const df = n - 1;
   const sides = i.alternative === 'two-sided' ? 2 : 1;
-  const q = tInv(1 - i.alpha / sides, df);
+  const q = studentTQuantile(1 - i.alpha / sides, df);
   const ncp = (Math.sqrt(n) * i.delta) / i.sd;
   let p = noncentralTUpper(q, df, ncp);
   if (i.strict && sides === 2) p += noncentralTCdf(-q, df, ncp);
