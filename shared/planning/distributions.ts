@@ -3,12 +3,12 @@
  *
  * - Noncentral t CDF. No maintained npm package has one we could rely on: the @stdlib collection
  *   has no noncentral t, and jstat's `noncentralt.cdf` sums the Poisson-weighted beta series from
- *   j = 0 (Lenth 1989, AS 243) without starting at the mode, so its weights underflow (e^(−δ²/2) = 0
- *   for |δ| > 38) and its flip for negative t loses the tail. So it is written here, from its
- *   definition: T = (Z + δ)/√(W/ν) with Z ~ N(0,1), W ~ χ²(ν) independent, hence
- *   P(T ≤ t) = E[Φ(t·√(W/ν) − δ)], integrated over log √(W/ν) by adaptive Gauss–Kronrod (7–15)
+ *   j = 0 (Lenth 1989, AS 243) without starting at the mode, so its weights underflow (e^(−θ²/2) = 0
+ *   for |θ| > 38) and its flip for negative t loses the tail. So it is written here, from its
+ *   definition: T = (Z + θ)/√(W/ν) with Z ~ N(0,1), W ~ χ²(ν) independent, hence
+ *   P(T ≤ t) = E[Φ(t·√(W/ν) − θ)], integrated over log √(W/ν) by adaptive Gauss–Kronrod (7–15)
  *   quadrature (Kronrod 1965; nodes and weights as tabulated in QUADPACK, Piessens et al. 1983).
- *   Checked against R's `pt(q, df, ncp)` in tests/engine/planning-reference.test.ts.
+ *   Checked against R's `pt(q, df, noncentrality)` in tests/engine/planning-reference.test.ts.
  * - Binomial and hypergeometric probabilities, summed from log binomial coefficients (the plans'
  *   samples are at most a few hundred packs, so exact sums are cheap). Checked against R's
  *   `pbinom`/`phyper`.
@@ -81,15 +81,15 @@ function logDensityLogS(x: number, df: number, logNorm: number): number {
   return (df / 2 - 1) * Math.log(w) - w / 2 + logNorm + Math.log(2 * w);
 }
 
-/** P(T ≤ t) for T noncentral t with df degrees of freedom and noncentrality ncp (R: pt(t, df, ncp)). */
-export function noncentralTCdf(t: number, df: number, ncp: number): number {
-  if (!(df > 0) || !Number.isFinite(t) || !Number.isFinite(ncp)) {
+/** P(T ≤ t) for T noncentral t with df degrees of freedom and noncentrality noncentrality (R: pt(t, df, noncentrality)). */
+export function noncentralTLower(t: number, df: number, noncentrality: number): number {
+  if (!(df > 0) || !Number.isFinite(t) || !Number.isFinite(noncentrality)) {
     if (t === Number.POSITIVE_INFINITY) return 1;
     if (t === Number.NEGATIVE_INFINITY) return 0;
     return Number.NaN;
   }
-  if (t === 0) return phi(-ncp);
-  if (ncp === 0) return studentTCdf(t, df);
+  if (t === 0) return phi(-noncentrality);
+  if (noncentrality === 0) return studentTCdf(t, df);
   const logNorm = -(df / 2) * Math.log(2) - logGamma(df / 2);
   // Mode of the log-s density: d/dx [ν x − ν e^{2x}/2] = 0 → x = 0 (exactly, for every ν).
   const top = logDensityLogS(0, df, logNorm);
@@ -100,20 +100,20 @@ export function noncentralTCdf(t: number, df: number, ncp: number): number {
   while (logDensityLogS(lo, df, logNorm) > cut) lo -= step;
   let hi = step;
   while (logDensityLogS(hi, df, logNorm) > cut) hi += step / 2;
-  const f = (x: number) => phi(t * Math.exp(x) - ncp) * Math.exp(logDensityLogS(x, df, logNorm));
+  const f = (x: number) => phi(t * Math.exp(x) - noncentrality) * Math.exp(logDensityLogS(x, df, logNorm));
   // Split at the mode and where Φ's argument crosses zero, so each piece is smooth.
   const points = [lo, hi, 0];
-  const cross = Math.log(ncp / t);
-  if (ncp / t > 0 && cross > lo && cross < hi) points.push(cross);
+  const cross = Math.log(noncentrality / t);
+  if (noncentrality / t > 0 && cross > lo && cross < hi) points.push(cross);
   points.sort((a, b) => a - b);
   let sum = 0;
   for (let i = 0; i + 1 < points.length; i++) sum += integrate(f, points[i]!, points[i + 1]!);
   return Math.min(1, Math.max(0, sum));
 }
 
-/** P(T > t) for the same noncentral t, as P(−T < −t) with −T noncentral t(−ncp), keeping small upper tails. */
-export function noncentralTUpper(t: number, df: number, ncp: number): number {
-  return noncentralTCdf(-t, df, -ncp);
+/** P(T > t) for the same noncentral t, as P(−T < −t) with −T noncentral t(−noncentrality), keeping small upper tails. */
+export function noncentralTUpper(t: number, df: number, noncentrality: number): number {
+  return noncentralTLower(-t, df, -noncentrality);
 }
 
 function logChoose(n: number, k: number): number {

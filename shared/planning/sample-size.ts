@@ -1,14 +1,14 @@
 /**
  * Power and sample size of the one-sample t test, for the custom rulebook: the packs needed to
- * detect a shortfall δ of the mean with a given power at level α. The same definitions as R's
- * `power.t.test(type = "one.sample")` (stats package): with ν = n − 1, ncp = √n·δ/σ and
- * q = t(1 − α/k; ν) (k = 1 one-sided, 2 two-sided), power = P(T′ > q) for T′ noncentral t(ν, ncp),
+ * detect a shortfall θ of the mean with a given power at level α. The same definitions as R's
+ * `power.t.test(type = "one.sample")` (stats package): with ν = n − 1, noncentrality = √n·θ/σ and
+ * q = t(1 − α/k; ν) (k = 1 one-sided, 2 two-sided), power = P(T′ > q) for T′ noncentral t(ν, noncentrality),
  * plus P(T′ < −q) for a two-sided test when `strict` is set. The sample size is the n (real) at
  * which the power equals the target, found here by bisection to 1e-10 (R's uniroot with a tight
  * `tol` gives the same); the packs to measure are its ceiling.
  * Checked against R in tests/engine/planning-reference.test.ts.
  */
-import { studentTQuantile, noncentralTCdf, noncentralTUpper } from './distributions';
+import { studentTQuantile, noncentralTLower, noncentralTUpper } from './distributions';
 import { PlanningInputError } from './operating-characteristic';
 
 export type Sides = 'one-sided' | 'two-sided';
@@ -36,9 +36,9 @@ function powerAt(n: number, i: PowerInput): number {
   const df = n - 1;
   const sides = i.alternative === 'two-sided' ? 2 : 1;
   const q = studentTQuantile(1 - i.alpha / sides, df);
-  const ncp = (Math.sqrt(n) * i.delta) / i.sd;
-  let p = noncentralTUpper(q, df, ncp);
-  if (i.strict && sides === 2) p += noncentralTCdf(-q, df, ncp);
+  const noncentrality = (Math.sqrt(n) * i.delta) / i.sd;
+  let p = noncentralTUpper(q, df, noncentrality);
+  if (i.strict && sides === 2) p += noncentralTLower(-q, df, noncentrality);
   return p;
 }
 
