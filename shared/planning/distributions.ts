@@ -2,9 +2,9 @@
  * Distributions the planning module needs beyond the engine's normal and Student t.
  *
  * - Noncentral t CDF. No maintained npm package has one we could rely on: the @stdlib collection
- *   has no noncentral t, and jstat's `noncentralt.cdf` sums the Poisson-weighted beta series from
- *   j = 0 (Lenth 1989, AS 243) without starting at the mode, so its weights underflow (e^(−θ²/2) = 0
- *   for |θ| > 38) and its flip for negative t loses the tail. So it is written here, from its
+ *   has no noncentral t, and jstat's `noncentralt.cdf` sums its series from the first term rather
+ *   than from the largest, so its weights underflow for a large noncentrality and its flip for a
+ *   negative t loses the tail. So it is written here, from its
  *   definition: T = (Z + θ)/√(W/ν) with Z ~ N(0,1), W ~ χ²(ν) independent, hence
  *   P(T ≤ t) = E[Φ(t·√(W/ν) − θ)], integrated over log √(W/ν) by adaptive Gauss–Kronrod (7–15)
  *   quadrature (Kronrod 1965; nodes and weights as tabulated in QUADPACK, Piessens et al. 1983).
@@ -12,19 +12,14 @@
  * - Binomial and hypergeometric probabilities, summed from log binomial coefficients (the plans'
  *   samples are at most a few hundred packs, so exact sums are cheap). Checked against R's
  *   `pbinom`/`phyper`.
- * - χ² quantile (@stdlib gammaincinv) and the regularised incomplete beta (@stdlib betainc), for
- *   the confidence bound on a pooled standard deviation and the Clopper–Pearson interval.
  */
 import normalCdf from '@stdlib/stats-base-dists-normal-cdf';
-import normalQuantile from '@stdlib/stats-base-dists-normal-quantile';
 import studentTCdfOf from '@stdlib/stats-base-dists-t-cdf';
 import tQuantile from '@stdlib/stats-base-dists-t-quantile';
 import gammaln from '@stdlib/math-base-special-gammaln';
-import gammaincinv from '@stdlib/math-base-special-gammaincinv';
 import betainc from '@stdlib/math-base-special-betainc';
 
 export const phi = (z: number): number => normalCdf(z, 0, 1);
-export const phiInv = (p: number): number => normalQuantile(p, 0, 1);
 export const studentTCdf = (t: number, df: number): number => studentTCdfOf(t, df);
 export const studentTQuantile = (p: number, df: number): number => tQuantile(p, df);
 export const logGamma = (x: number): number => gammaln(x);
@@ -148,30 +143,4 @@ export function hypergeometricCdf(k: number, N: number, D: number, n: number): n
   const top = Math.min(k, n, D);
   for (let j = Math.max(0, n - (N - D)); j <= top; j++) s += hypergeometricPmf(j, N, D, n);
   return Math.min(1, s);
-}
-
-/** The p-quantile of χ²(df) (R: qchisq(p, df)). */
-export function chiSquareQuantile(p: number, df: number): number {
-  return 2 * gammaincinv(p, df / 2);
-}
-
-/** The p-quantile of Beta(a, b) by bisection on @stdlib's regularised incomplete beta (R: qbeta). */
-export function betaQuantile(p: number, a: number, b: number): number {
-  let lo = 0;
-  let hi = 1;
-  for (let i = 0; i < 200 && hi - lo > 1e-15; i++) {
-    const m = (lo + hi) / 2;
-    if (betainc(m, a, b) < p) lo = m;
-    else hi = m;
-  }
-  return (lo + hi) / 2;
-}
-
-/** Clopper–Pearson (1934, Biometrika 26) exact interval for a binomial proportion at the given confidence. */
-export function clopperPearson(x: number, n: number, confidence = 0.95): { lower: number; upper: number } {
-  const a = (1 - confidence) / 2;
-  return {
-    lower: x === 0 ? 0 : betaQuantile(a, x, n - x + 1),
-    upper: x === n ? 1 : betaQuantile(1 - a, x + 1, n - x),
-  };
 }
