@@ -1,5 +1,5 @@
 /**
- * Distributions the planning module needs beyond the engine's normal and Student t.
+ * Distributions the planning module needs beyond the engine's own.
  *
  * - Noncentral t CDF. No maintained npm package has one we could rely on: the @stdlib collection
  *   has no noncentral t, and jstat's `noncentralt.cdf` sums its series from the first term rather
@@ -8,7 +8,7 @@
  *   definition: T = (Z + θ)/√(W/ν) with Z ~ N(0,1), W ~ χ²(ν) independent, hence
  *   P(T ≤ t) = E[Φ(t·√(W/ν) − θ)], integrated over log √(W/ν) by adaptive Gauss–Kronrod (7–15)
  *   quadrature (Kronrod 1965; nodes and weights as tabulated in QUADPACK, Piessens et al. 1983).
- *   Checked against R's `pt(q, df, noncentrality)` in tests/engine/planning-reference.test.ts.
+ *   Checked against R's `noncentral pt` in tests/engine/planning-reference.test.ts.
  * - Binomial and hypergeometric probabilities, summed from log binomial coefficients (the plans'
  *   samples are at most a few hundred packs, so exact sums are cheap). Checked against R's
  *   `pbinom`/`phyper`.
@@ -76,7 +76,7 @@ function logDensityLogS(x: number, df: number, logNorm: number): number {
   return (df / 2 - 1) * Math.log(w) - w / 2 + logNorm + Math.log(2 * w);
 }
 
-/** P(T ≤ t) for T noncentral t with df degrees of freedom and noncentrality noncentrality (R: pt(t, df, noncentrality)). */
+/** P(T ≤ t) for T noncentral t with df degrees of freedom and the given noncentrality (R's noncentral pt). */
 export function noncentralTLower(t: number, df: number, noncentrality: number): number {
   if (!(df > 0) || !Number.isFinite(t) || !Number.isFinite(noncentrality)) {
     if (t === Number.POSITIVE_INFINITY) return 1;
