@@ -5,9 +5,10 @@
  *   has no noncentral t, and jstat's `noncentralt.cdf` sums its series from the first term rather
  *   than from the largest, so its weights underflow for a large noncentrality and its flip for a
  *   negative t loses the tail. So it is written here, from its
- *   definition: T = (Z + θ)/√(W/ν) with Z ~ N(0,1), W ~ χ²(ν) independent, hence
- *   P(T ≤ t) = E[Φ(t·√(W/ν) − θ)], integrated over log √(W/ν) by adaptive Gauss–Kronrod (7–15)
- *   quadrature (Kronrod 1965; nodes and weights as tabulated in QUADPACK, Piessens et al. 1983).
+ *   definition as a normal variable shifted by the noncentrality over the root of an independent
+ *   chi-square variable per degree of freedom: the probability is the expectation, over that root s,
+ *   of the normal probability at t·s minus the noncentrality, integrated over log s by adaptive
+ *   Gauss–Kronrod (7–15) quadrature (nodes and weights as tabulated in QUADPACK, Piessens et al. 1983).
  *   Checked against R's `noncentral pt` in tests/engine/planning-reference.test.ts.
  * - Binomial and hypergeometric probabilities, summed from log binomial coefficients (the plans'
  *   samples are at most a few hundred packs, so exact sums are cheap). Checked against R's
