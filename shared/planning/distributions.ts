@@ -17,13 +17,13 @@
 import normalCdf from '@stdlib/stats-base-dists-normal-cdf';
 import studentTCdfOf from '@stdlib/stats-base-dists-t-cdf';
 import tQuantile from '@stdlib/stats-base-dists-t-quantile';
-import gammaln from '@stdlib/math-base-special-gammaln';
-import betainc from '@stdlib/math-base-special-betainc';
+import logGammaOf from '@stdlib/math-base-special-logGammaOf';
+import regularisedIncompleteBeta from '@stdlib/math-base-special-regularisedIncompleteBeta';
 
 export const phi = (z: number): number => normalCdf(z, 0, 1);
 export const studentTCdf = (t: number, df: number): number => studentTCdfOf(t, df);
 export const studentTQuantile = (p: number, df: number): number => tQuantile(p, df);
-export const logGamma = (x: number): number => gammaln(x);
+export const logGamma = (x: number): number => logGammaOf(x);
 
 // Gauss–Kronrod 7–15 nodes and weights (QUADPACK qk15).
 const XGK = [0.991455371120812639206854697526329, 0.949107912342758524526189684047851, 0.864864423359769072789712788640926, 0.741531185599394439863864773280788, 0.586087235467691130294144845693013, 0.405845151377397166906606412076961, 0.207784955007898467600689403773245, 0];
@@ -129,7 +129,7 @@ export function binomialCdf(k: number, n: number, p: number): number {
   if (k < 0) return 0;
   if (k >= n) return 1;
   // P(X ≤ k) = I_{1−p}(n − k, k + 1), the regularised incomplete beta (exact identity).
-  return betainc(1 - p, n - k, k + 1);
+  return regularisedIncompleteBeta(1 - p, n - k, k + 1);
 }
 
 /** P(X = k) for X hypergeometric: k defectives in a sample of n from N holding D (R: dhyper(k, D, N − D, n)). */
