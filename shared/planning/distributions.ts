@@ -17,8 +17,8 @@
 import normalCdf from '@stdlib/stats-base-dists-normal-cdf';
 import studentTCdfOf from '@stdlib/stats-base-dists-t-cdf';
 import tQuantile from '@stdlib/stats-base-dists-t-quantile';
-import logGammaOf from '@stdlib/math-base-special-logGammaOf';
-import regularisedIncompleteBeta from '@stdlib/math-base-special-regularisedIncompleteBeta';
+import logGammaOf from '@stdlib/math-base-special-gammaln';
+import regularisedIncompleteBeta from '@stdlib/math-base-special-betainc';
 
 export const phi = (z: number): number => normalCdf(z, 0, 1);
 export const studentTCdf = (t: number, df: number): number => studentTCdfOf(t, df);
