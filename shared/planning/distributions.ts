@@ -23,7 +23,7 @@ import regularisedIncompleteBeta from '@stdlib/math-base-special-betainc';
 export const phi = (z: number): number => normalCdf(z, 0, 1);
 export const studentTCdf = (t: number, df: number): number => studentTCdfOf(t, df);
 export const studentTQuantile = (p: number, df: number): number => tQuantile(p, df);
-export const logGamma = (x: number): number => logGammaOf(x);
+export const lnGamma = (x: number): number => logGammaOf(x);
 
 // Gauss–Kronrod 7–15 nodes and weights (QUADPACK qk15).
 const XGK = [0.991455371120812639206854697526329, 0.949107912342758524526189684047851, 0.864864423359769072789712788640926, 0.741531185599394439863864773280788, 0.586087235467691130294144845693013, 0.405845151377397166906606412076961, 0.207784955007898467600689403773245, 0];
@@ -51,7 +51,7 @@ function kronrod(f: (x: number) => number, a: number, b: number): { value: numbe
  * `maxPieces` pieces. (A recursion that halves an absolute tolerance at every level can ask for
  * less than the rounding error of a piece and then never stops.)
  */
-export function integrate(f: (x: number) => number, a: number, b: number, absTol = 1e-15, relTol = 1e-13, maxPieces = 2000): number {
+export function adaptiveIntegral(f: (x: number) => number, a: number, b: number, absTol = 1e-15, relTol = 1e-13, maxPieces = 2000): number {
   const pieces: { a: number; b: number; value: number; error: number }[] = [{ a, b, ...kronrod(f, a, b) }];
   for (;;) {
     let value = 0;
@@ -86,7 +86,7 @@ export function noncentralTLower(t: number, df: number, noncentrality: number): 
   }
   if (t === 0) return phi(-noncentrality);
   if (noncentrality === 0) return studentTCdf(t, df);
-  const logNorm = -(df / 2) * Math.log(2) - logGamma(df / 2);
+  const logNorm = -(df / 2) * Math.log(2) - lnGamma(df / 2);
   // Mode of the log-s density: d/dx [ν x − ν e^{2x}/2] = 0 → x = 0 (exactly, for every ν).
   const top = logDensityLogS(0, df, logNorm);
   const cut = top - 46; // density below e^-46 ≈ 1e-20 of the peak contributes nothing we can see
@@ -103,7 +103,7 @@ export function noncentralTLower(t: number, df: number, noncentrality: number): 
   if (noncentrality / t > 0 && cross > lo && cross < hi) points.push(cross);
   points.sort((a, b) => a - b);
   let sum = 0;
-  for (let i = 0; i + 1 < points.length; i++) sum += integrate(f, points[i]!, points[i + 1]!);
+  for (let i = 0; i + 1 < points.length; i++) sum += adaptiveIntegral(f, points[i]!, points[i + 1]!);
   return Math.min(1, Math.max(0, sum));
 }
 
@@ -113,7 +113,7 @@ export function noncentralTUpper(t: number, df: number, noncentrality: number): 
 }
 
 function logChoose(n: number, k: number): number {
-  return logGamma(n + 1) - logGamma(k + 1) - logGamma(n - k + 1);
+  return lnGamma(n + 1) - lnGamma(k + 1) - lnGamma(n - k + 1);
 }
 
 /** P(X = k) for X ~ Binomial(n, p). */
