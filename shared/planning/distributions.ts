@@ -20,7 +20,7 @@ import tQuantile from '@stdlib/stats-base-dists-t-quantile';
 import logGammaOf from '@stdlib/math-base-special-gammaln';
 import regularisedIncompleteBeta from '@stdlib/math-base-special-betainc';
 
-export const phi = (z: number): number => normalCdf(z, 0, 1);
+export const standardNormalCdf = (z: number): number => normalCdf(z, 0, 1);
 export const studentTCdf = (t: number, df: number): number => studentTCdfOf(t, df);
 export const studentTQuantile = (p: number, df: number): number => tQuantile(p, df);
 export const lnGamma = (x: number): number => logGammaOf(x);
@@ -84,7 +84,7 @@ export function noncentralTLower(t: number, df: number, noncentrality: number): 
     if (t === Number.NEGATIVE_INFINITY) return 0;
     return Number.NaN;
   }
-  if (t === 0) return phi(-noncentrality);
+  if (t === 0) return standardNormalCdf(-noncentrality);
   if (noncentrality === 0) return studentTCdf(t, df);
   const logNorm = -(df / 2) * Math.log(2) - lnGamma(df / 2);
   // Mode of the log-s density: d/dx [ν x − ν e^{2x}/2] = 0 → x = 0 (exactly, for every ν).
@@ -96,7 +96,7 @@ export function noncentralTLower(t: number, df: number, noncentrality: number): 
   while (logDensityLogS(lo, df, logNorm) > cut) lo -= step;
   let hi = step;
   while (logDensityLogS(hi, df, logNorm) > cut) hi += step / 2;
-  const f = (x: number) => phi(t * Math.exp(x) - noncentrality) * Math.exp(logDensityLogS(x, df, logNorm));
+  const f = (x: number) => standardNormalCdf(t * Math.exp(x) - noncentrality) * Math.exp(logDensityLogS(x, df, logNorm));
   // Split at the mode and where Φ's argument crosses zero, so each piece is smooth.
   const points = [lo, hi, 0];
   const cross = Math.log(noncentrality / t);

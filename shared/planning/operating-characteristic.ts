@@ -19,7 +19,7 @@
  * own plan (`euPlan`), factor (`meanFactor` with the printed λ) and TNE (`EU_TNE` by `tneByTable`); a test
  * checks its decisions against `evaluateLot` itself (tests/engine/planning-oc.test.ts).
  */
-import { phi, binomialCdf, binomialPmf, hypergeometricCdf, hypergeometricPmf, noncentralTUpper } from './distributions';
+import { standardNormalCdf, binomialCdf, binomialPmf, hypergeometricCdf, hypergeometricPmf, noncentralTUpper } from './distributions';
 import { euPlan, EU_76_211_INFO, EU_PRINTED_FACTORS } from '../engine/rulebooks/eu76211';
 import { EU_TNE, tneByTable } from '../engine/rulebooks/tne';
 import { meanFactor } from '../engine/rulebooks/criteria';
@@ -101,7 +101,7 @@ export function validateCase(c: OcCase): void {
 /** P(a pack is below T1) and P(below T2) for the process. */
 export function shortfallProbabilities(c: OcCase): { belowT1: number; belowT2: number } {
   const l = limitsOf(c);
-  return { belowT1: phi((l.t1 - c.mean) / c.sd), belowT2: phi((l.t2 - c.mean) / c.sd) };
+  return { belowT1: standardNormalCdf((l.t1 - c.mean) / c.sd), belowT2: standardNormalCdf((l.t2 - c.mean) / c.sd) };
 }
 
 /** P(the T1 count alone accepts) for packs from the process (binomial), by the plan's stages. */
@@ -148,7 +148,7 @@ export function exactParts(c: OcCase): ExactParts {
   const { belowT1, belowT2 } = shortfallProbabilities(c);
   const n = plan.kind === 'double' ? plan.n1 : plan.n;
   const meanFirstSample =
-    plan.kind === 'full' ? phi((Math.sqrt(plan.n) * (c.mean - c.nominalQuantity)) / c.sd) : meanCheckProbability(n, plan.kind === 'single' ? plan.factor : plan.factor1, c.mean, c.sd, c.nominalQuantity);
+    plan.kind === 'full' ? standardNormalCdf((Math.sqrt(plan.n) * (c.mean - c.nominalQuantity)) / c.sd) : meanCheckProbability(n, plan.kind === 'single' ? plan.factor : plan.factor1, c.mean, c.sd, c.nominalQuantity);
   return { belowT1, belowT2, t1Accept: t1AcceptBinomial(plan, belowT1), meanFirstSample, noT2FirstSample: Math.exp(n * Math.log1p(-belowT2)) };
 }
 
