@@ -14,16 +14,16 @@
  *   samples are at most a few hundred packs, so exact sums are cheap). Checked against R's
  *   `pbinom`/`phyper`.
  */
-import normalCdf from '@stdlib/stats-base-dists-normal-cdf';
-import studentTCdfOf from '@stdlib/stats-base-dists-t-cdf';
-import tQuantile from '@stdlib/stats-base-dists-t-quantile';
+import normalCdfOf from '@stdlib/stats-base-dists-normal-cdf';
+import tDistCdf from '@stdlib/stats-base-dists-t-cdf';
+import tDistQuantile from '@stdlib/stats-base-dists-t-quantile';
 import logGammaOf from '@stdlib/math-base-special-gammaln';
 import regularisedIncompleteBeta from '@stdlib/math-base-special-betainc';
 
-export const standardNormalCdf = (z: number): number => normalCdf(z, 0, 1);
-export const studentTCdf = (t: number, df: number): number => studentTCdfOf(t, df);
-export const studentTQuantile = (p: number, df: number): number => tQuantile(p, df);
-export const lnGamma = (x: number): number => logGammaOf(x);
+export const standardNormalCdf = (z: number): number => normalCdfOf(z, 0, 1);
+export const studentTCdf = (t: number, df: number): number => tDistCdf(t, df);
+export const studentTQuantile = (p: number, df: number): number => tDistQuantile(p, df);
+export const logOfGamma = (x: number): number => logGammaOf(x);
 
 // Gauss–Kronrod 7–15 nodes and weights (QUADPACK qk15).
 const XGK = [0.991455371120812639206854697526329, 0.949107912342758524526189684047851, 0.864864423359769072789712788640926, 0.741531185599394439863864773280788, 0.586087235467691130294144845693013, 0.405845151377397166906606412076961, 0.207784955007898467600689403773245, 0];
@@ -86,7 +86,7 @@ export function noncentralTLower(t: number, df: number, noncentrality: number): 
   }
   if (t === 0) return standardNormalCdf(-noncentrality);
   if (noncentrality === 0) return studentTCdf(t, df);
-  const logNorm = -(df / 2) * Math.log(2) - lnGamma(df / 2);
+  const logNorm = -(df / 2) * Math.log(2) - logOfGamma(df / 2);
   // Mode of the log-s density: d/dx [ν x − ν e^{2x}/2] = 0 → x = 0 (exactly, for every ν).
   const top = logDensityLogS(0, df, logNorm);
   const cut = top - 46; // density below e^-46 ≈ 1e-20 of the peak contributes nothing we can see
@@ -113,7 +113,7 @@ export function noncentralTUpper(t: number, df: number, noncentrality: number): 
 }
 
 function logChoose(n: number, k: number): number {
-  return lnGamma(n + 1) - lnGamma(k + 1) - lnGamma(n - k + 1);
+  return logOfGamma(n + 1) - logOfGamma(k + 1) - logOfGamma(n - k + 1);
 }
 
 /** P(X = k) for X ~ Binomial(n, p). */
